@@ -1,0 +1,69 @@
+#!/usr/bin/env python3
+"""Project entry point for people and CI: sets up ./.venv on first use, then runs a task.
+
+    python3 dev.py demo    run the example pipeline end to end (example_pipeline/)
+    python3 dev.py test    run the whole test suite (slow cases included)
+
+Only the Python standard library is used here, so it runs on a machine that has nothing but
+Python 3.11+ and pip. The environment is rebuilt when pyproject.toml changes.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import subprocess
+import sys
+import venv
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent
+VENV = ROOT / ".venv"
+BIN = VENV / ("Scripts" if os.name == "nt" else "bin")
+PY = BIN / "python"
+STAMP = VENV / ".samplewright-stamp"
+
+
+def _wanted_stamp() -> str:
+    return hashlib.sha256((ROOT / "pyproject.toml").read_bytes()).hexdigest()
+
+
+def ensure_venv() -> None:
+    """Create ./.venv and install the project with its test extra, unless already current."""
+    if sys.version_info < (3, 11):
+        sys.exit(f"dev.py: Python 3.11 or newer is needed, found {sys.version.split()[0]}")
+    if STAMP.exists() and STAMP.read_text() == _wanted_stamp() and PY.exists():
+        return
+    print("dev.py: setting up .venv (first use or pyproject.toml changed) ...", flush=True)
+    if not PY.exists():
+        venv.EnvBuilder(with_pip=True).create(VENV)
+    pip = [str(PY), "-m", "pip", "install", "--disable-pip-version-check", "-q"]
+    subprocess.run([*pip, "--upgrade", "pip"], check=True)
+    subprocess.run([*pip, "-e", f"{ROOT}[test,reports]"], check=True)
+    STAMP.write_text(_wanted_stamp())
+
+
+def run(cmd: list[str], cwd: Path = ROOT) -> int:
+    env = dict(os.environ)
+    env["PATH"] = f"{BIN}{os.pathsep}{env.get('PATH', '')}"
+    env["VIRTUAL_ENV"] = str(VENV)
+    return subprocess.run(cmd, cwd=cwd, env=env).returncode
+
+
+def main(argv: list[str]) -> int:
+    if not argv or argv[0] not in {"demo", "test"}:
+        print(__doc__)
+        return 2
+    ensure_venv()
+    task, rest = argv[0], argv[1:]
+    if task == "test":
+        return run([str(PY), "-m", "pytest", *rest])
+    cores = os.environ.get("SAMPLEWRIGHT_CORES", "2")
+    return run(
+        [str(BIN / "snakemake"), "--cores", cores, "--workflow-profile", "profiles/laptop", *rest],
+        cwd=ROOT / "example_pipeline",
+    )
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))

@@ -1,0 +1,1 @@
+"""Snakemake rule files shipped with samplewright; see :func:`samplewright.rules_path`."""

@@ -1,0 +1,2 @@
+rule x:
+    output: "x"
