@@ -58,11 +58,19 @@ def main(argv: list[str]) -> int:
     task, rest = argv[0], argv[1:]
     if task == "test":
         return run([str(PY), "-m", "pytest", *rest])
+    demo = ROOT / "example_pipeline"
+    rc = run([str(PY), "make_data.py"], cwd=demo)  # invented data, fixed seed, only if missing
+    if rc:
+        return rc
     cores = os.environ.get("SAMPLEWRIGHT_CORES", "2")
-    return run(
+    rc = run(
         [str(BIN / "snakemake"), "--cores", cores, "--workflow-profile", "profiles/laptop", *rest],
-        cwd=ROOT / "example_pipeline",
+        cwd=demo,
     )
+    if rc == 0 and (demo / "results" / "season_risk.json").exists():
+        print("\ndev.py: risk figures in example_pipeline/results/season_risk.json and "
+              "season_risk.png; samplers in example_pipeline/store/selected/")
+    return rc
 
 
 if __name__ == "__main__":

@@ -1,2 +1,168 @@
-rule x:
-    output: "x"
+# samplewright rules: snapshot, fit, select, draw and check samplers, all content-addressed.
+#
+# Use from your Snakefile, either as a module:
+#     import samplewright
+#     module samplewright:
+#         snakefile: samplewright.rules_path()
+#         config: config["samplewright"]
+#     use rule * from samplewright
+# or with   include: samplewright.rules_path()   (then the top-level key "samplewright" is read).
+#
+# Only sw_snapshot (and the sw_fingerprint checkpoint, for data made by the workflow) names the
+# raw data file; every rule below reads the content-addressed snapshot through ancient(), so
+# touching, re-downloading or converting a file reruns nothing below it. Each rule carries the
+# results version in params: bumping it (on an algorithm change) reruns everything from fitting.
+
+import samplewright.workflow as _sw
+
+SW = _sw.register(
+    _sw.Plan(config.get("samplewright", config), checkpoints=checkpoints)
+)
+SW_LOGS = SW.store + "/logs"
+SW_BENCH = SW.store + "/benchmarks"
+
+
+checkpoint sw_fingerprint:
+    """Fingerprint of data made by a rule of this workflow (datasets with produced: true)."""
+    input:
+        lambda wc: SW.datasets[wc.dataset]["path"],
+    output:
+        SW.store + "/produced/{dataset}.json",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+    params:
+        results_version=SW.results_version,
+        args=lambda wc: SW.snapshot_args(wc.dataset),
+    log:
+        SW_LOGS + "/fingerprint/{dataset}.log",
+    shell:
+        "samplewright fingerprint {input:q} {params.args} --json-out {output:q}"
+        " > {log:q} 2>&1"
+
+
+rule sw_snapshot:
+    """The cleaned values of one data column, stored under their fingerprint."""
+    input:
+        lambda wc: ancient(SW.datasets[wc.dataset]["path"]),
+    output:
+        SW.store + "/columns/{dataset}/{fp}.parquet",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+        fp=_sw.KEY_PATTERN,
+    params:
+        results_version=SW.results_version,
+        args=lambda wc: SW.snapshot_args(wc.dataset),
+    log:
+        SW_LOGS + "/snapshot/{dataset}/{fp}.log",
+    resources:
+        mem_mb=1000,
+        runtime=10,
+    shell:
+        "samplewright snapshot {input:q} {params.args}"
+        " --expect-fingerprint {wildcards.fp} --out {output:q} > {log:q} 2>&1"
+
+
+rule sw_fit:
+    """Fit one candidate method to one dataset's snapshot."""
+    input:
+        lambda wc: ancient(SW.snapshot_path(wc.dataset)),
+    output:
+        SW.store + "/samplers/{dataset}/{label}/{key}.parquet",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+        label=_sw.LABEL_PATTERN,
+        key=_sw.KEY_PATTERN,
+    params:
+        results_version=SW.results_version,
+        args=lambda wc: SW.fit_args(wc.dataset, wc.label),
+        fingerprint=lambda wc: SW.fingerprint(wc.dataset),
+    log:
+        SW_LOGS + "/fit/{dataset}/{label}/{key}.log",
+    benchmark:
+        SW_BENCH + "/fit/{dataset}/{label}/{key}.tsv"
+    threads: 1
+    resources:
+        mem_mb=2000,
+        runtime=30,
+    shell:
+        "samplewright fit {input:q} {params.args} --key {wildcards.key}"
+        " --expect-fingerprint {params.fingerprint} --out {output:q} > {log:q} 2>&1"
+
+
+rule sw_knots:
+    """A user-drawn CDF (knots file) as a sampler artifact."""
+    input:
+        lambda wc: ancient(SW.datasets[wc.dataset]["knots"]),
+    output:
+        SW.store + "/samplers/{dataset}/knots/{key}.parquet",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+        key=_sw.KEY_PATTERN,
+    params:
+        results_version=SW.results_version,
+    log:
+        SW_LOGS + "/knots/{dataset}/{key}.log",
+    shell:
+        "samplewright knots --file {input:q} --key {wildcards.key}"
+        " --out {output:q} > {log:q} 2>&1"
+
+
+ruleorder: sw_knots > sw_fit
+
+
+rule sw_select:
+    """The sampler downstream steps use, chosen among the dataset's candidates."""
+    input:
+        lambda wc: [ancient(p) for p in SW.candidate_paths(wc.dataset)],
+    output:
+        SW.store + "/selected/{dataset}/{key}.parquet",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+        key=_sw.KEY_PATTERN,
+    params:
+        results_version=SW.results_version,
+        rule=lambda wc: SW.select_rule(wc.dataset),
+    log:
+        SW_LOGS + "/select/{dataset}/{key}.log",
+    shell:
+        "samplewright select {input:q} --by {params.rule} --key {wildcards.key}"
+        " --out {output:q} > {log:q} 2>&1"
+
+
+rule sw_draw:
+    """A Parquet file of draws (column 'value') for consumers outside Python."""
+    input:
+        lambda wc: ancient(SW.selected_path(wc.dataset)),
+    output:
+        SW.store + "/draws/{dataset}/{key}.parquet",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+        key=_sw.KEY_PATTERN,
+    params:
+        results_version=SW.results_version,
+        n=lambda wc: SW.datasets[wc.dataset]["draws"],
+        seed=SW.root_seed,
+    log:
+        SW_LOGS + "/draw/{dataset}/{key}.log",
+    shell:
+        "samplewright draw {input:q} -n {params.n} --seed {params.seed}"
+        " --stream {wildcards.dataset} --stream draws --out {output:q} > {log:q} 2>&1"
+
+
+rule sw_check:
+    """A short check summary of every candidate against the data (JSON, Markdown beside)."""
+    input:
+        data=lambda wc: ancient(SW.snapshot_path(wc.dataset)),
+        candidates=lambda wc: [ancient(p) for p in SW.candidate_paths(wc.dataset)],
+    output:
+        SW.store + "/checks/{dataset}/{key}.json",
+    wildcard_constraints:
+        dataset=SW.dataset_pattern(),
+        key=_sw.KEY_PATTERN,
+    params:
+        results_version=SW.results_version,
+    log:
+        SW_LOGS + "/check/{dataset}/{key}.log",
+    shell:
+        "samplewright check {input.data:q} {input.candidates:q}"
+        " --dataset {wildcards.dataset} --out {output:q} > {log:q} 2>&1"

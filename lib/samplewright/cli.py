@@ -66,8 +66,20 @@ def _data_section(data: Any, n_obs: int) -> dict[str, Any]:
 def cmd_fingerprint(args: argparse.Namespace) -> int:
     fp = fingerprint_file(args.data, args.column, weights=args.weights, censor=args.censor,
                           missing=args.missing, infinite=args.infinite, cache_dir=args.cache_dir)
+    if args.json_out:
+        doc = json.dumps({"fingerprint": fp, "source": str(args.data), "column": args.column})
+        atomic_write(Path(args.json_out), lambda tmp: Path(tmp).write_text(doc + "\n"))
     print(fp)
     return 0
+
+
+def _check_expected(label: str, fp: str, expected: str | None) -> None:
+    """Fail if the data's fingerprint is not the one the workflow planned with (a prefix)."""
+    if expected and not fp.startswith(expected):
+        raise SamplewrightError(
+            f"{label} changed after the workflow was planned (fingerprint {fp[:20]}, planned "
+            f"{expected[:20]}); run snakemake again to plan with the new data"
+        )
 
 
 def cmd_snapshot(args: argparse.Namespace) -> int:
@@ -77,11 +89,7 @@ def cmd_snapshot(args: argparse.Namespace) -> int:
     data = read_column(args.data, args.column, weights=args.weights, censor=args.censor,
                        missing=args.missing, infinite=args.infinite)
     fp = fingerprint_column(data)
-    if args.expect_fingerprint and fp != args.expect_fingerprint:
-        raise SamplewrightError(
-            f"{args.data}: column {args.column!r} changed after the workflow was planned "
-            f"(fingerprint {fp[:16]}, planned {args.expect_fingerprint[:16]}); rerun snakemake"
-        )
+    _check_expected(f"column {args.column!r} in {args.data}", fp, args.expect_fingerprint)
     write_snapshot(data, args.out)
     print(f"{args.out}: {data.n} values, fingerprint {fp[:16]}")
     return 0
@@ -98,11 +106,7 @@ def cmd_fit(args: argparse.Namespace) -> int:
                            missing=args.missing, infinite=args.infinite,
                            min_rows=_method_minimum(args.method))
     fp = fingerprint_column(data)
-    if args.expect_fingerprint and fp != args.expect_fingerprint:
-        raise SamplewrightError(
-            f"{args.data}: data changed after the workflow was planned (fingerprint {fp[:16]}, "
-            f"planned {args.expect_fingerprint[:16]}); rerun snakemake"
-        )
+    _check_expected(str(args.data), fp, args.expect_fingerprint)
     try:
         sampler = fit(data.values, args.method, weights=data.weights, censored=data.censored,
                       **options)
@@ -293,6 +297,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("fingerprint", help="print the content fingerprint of a data column")
     _add_data_args(p)
     p.add_argument("--cache-dir", help="folder for the fingerprint cache (fingerprints.json)")
+    p.add_argument("--json-out", help="also write {fingerprint, source, column} to this JSON file")
     p.set_defaults(func=cmd_fingerprint)
 
     p = sub.add_parser("snapshot", help="write the cleaned column to a snapshot (workflow use)")

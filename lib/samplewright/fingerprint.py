@@ -24,7 +24,7 @@ import numpy as np
 
 from .intake import ColumnData, Policy, read_column
 
-__all__ = ["FINGERPRINT_VERSION", "fingerprint_arrays", "fingerprint_column", "fingerprint_file"]
+__all__ = ["FINGERPRINT_VERSION", "FingerprintCache", "fingerprint_arrays", "fingerprint_column", "fingerprint_file"]
 
 FINGERPRINT_VERSION = 1
 CACHE_NAME = "fingerprints.json"
@@ -82,6 +82,55 @@ def _store_cache(cache: Path, data: dict[str, dict]) -> None:
         raise
 
 
+class FingerprintCache:
+    """The stat-keyed fingerprint memo in ``cache_dir``/fingerprints.json.
+
+    Load once, look up many files, save once: planning a workflow with hundreds of datasets reads
+    and writes the JSON a single time.
+    """
+
+    def __init__(self, cache_dir: str | Path | None) -> None:
+        self.path = Path(cache_dir) / CACHE_NAME if cache_dir is not None else None
+        self.entries = _load_cache(self.path) if self.path is not None else {}
+        self.dirty = False
+
+    def fingerprint(
+        self,
+        path: str | Path,
+        column: str,
+        *,
+        weights: str | None = None,
+        censor: str | None = None,
+        missing: Policy = "error",
+        infinite: Policy = "error",
+    ) -> str:
+        path = Path(path)
+        if not path.is_file():
+            read_column(path, column)  # raises the standard "not found" error
+        entry_key = json.dumps(
+            [str(path.resolve()), column, weights, censor, missing, infinite, FINGERPRINT_VERSION]
+        )
+        stat = _stat_key(path)
+        hit = self.entries.get(entry_key)
+        if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
+            return str(hit["fingerprint"])
+        data = read_column(path, column, weights=weights, censor=censor, missing=missing,
+                           infinite=infinite)
+        fp = fingerprint_column(data)
+        if _stat_key(path) == stat:  # unchanged while we read it
+            self.entries[entry_key] = {**stat, "fingerprint": fp}
+            self.dirty = True
+        return fp
+
+    def save(self) -> None:
+        """Write the memo if anything was added (merging with entries written meanwhile)."""
+        if self.path is None or not self.dirty:
+            return
+        merged = {**_load_cache(self.path), **self.entries}
+        _store_cache(self.path, merged)
+        self.dirty = False
+
+
 def fingerprint_file(
     path: str | Path,
     column: str,
@@ -96,23 +145,8 @@ def fingerprint_file(
 
     Raises the same one-line :class:`~samplewright.errors.InputDataError` as reading would.
     """
-    path = Path(path)
-    if not path.is_file():
-        read_column(path, column)  # raises the standard "not found" error
-    entry_key = json.dumps(
-        [str(path.resolve()), column, weights, censor, missing, infinite, FINGERPRINT_VERSION]
-    )
-    stat = _stat_key(path)
-    cache = Path(cache_dir) / CACHE_NAME if cache_dir is not None else None
-    if cache is not None:
-        hit = _load_cache(cache).get(entry_key)
-        if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
-            return str(hit["fingerprint"])
-    data = read_column(path, column, weights=weights, censor=censor, missing=missing,
-                       infinite=infinite)
-    fp = fingerprint_column(data)
-    if cache is not None and _stat_key(path) == stat:
-        current = _load_cache(cache)
-        current[entry_key] = {**stat, "fingerprint": fp}
-        _store_cache(cache, current)
+    cache = FingerprintCache(cache_dir)
+    fp = cache.fingerprint(path, column, weights=weights, censor=censor, missing=missing,
+                           infinite=infinite)
+    cache.save()
     return fp

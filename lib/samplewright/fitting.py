@@ -179,6 +179,6 @@ def parse_knots_text(text: str) -> PiecewiseSampler:
         p = [float(b) for _, b in pairs]
     except ValueError:
         raise KnotsError(
-            f"--knots: expected 'x1:p1,x2:p2,...' with numbers, found {text!r}"
+            f"--points: expected 'x1:p1,x2:p2,...' with numbers, found {text!r}"
         ) from None
     return from_knots(x, p)

@@ -108,7 +108,12 @@ def _to_float(series: pd.Series, path: Path, column: str) -> np.ndarray:
                 f"column {column!r} in {path.name} has {pos.size} non-numeric value"
                 f"{'s' if pos.size > 1 else ''} (first at row {pos[0] + 1}: {text.iloc[pos[0]]!r})"
             )
-        return numbers.to_numpy(dtype=np.float64)
+        # pd.to_numeric keeps only about 16 significant digits, so the accepted text is parsed
+        # again exactly (correctly rounded): CSV and Parquet then give the same float64 values.
+        try:
+            return text.where(~missing, "nan").to_numpy(dtype=str).astype(np.float64)
+        except ValueError:  # pragma: no cover - text pandas accepts but numpy does not
+            return numbers.to_numpy(dtype=np.float64)
     if pd.api.types.is_bool_dtype(series.dtype):
         return series.to_numpy(dtype=np.float64)
     if not pd.api.types.is_numeric_dtype(series.dtype):
@@ -187,7 +192,7 @@ def read_column(
             r = _first_row(nonpos)
             raise InputDataError(
                 f"weight column {weights!r} in {path.name} has {int(nonpos.sum())} weights "
-                f"<= 0 (first at row {r}: {w[r - 1]!r}); weights must be > 0"
+                f"<= 0 (first at row {r}: {float(w[r - 1])!r}); weights must be > 0"
             )
         w = w[keep]
 

@@ -186,7 +186,16 @@ class EmpiricalSampler(Sampler):
 
     @classmethod
     def from_payload(cls, payload: dict[str, np.ndarray], described: dict[str, Any]) -> Sampler:
-        return cls(payload["value"], payload.get("weight"), method=described["method"])
+        sampler = cls(payload["value"], payload.get("weight"), method=described["method"])
+        if sampler.weights is not None:
+            # The stored weights are already normalised; dividing by their sum again can move
+            # them by an ulp, which would change the CDF and the content hash on a rewrite.
+            order = np.argsort(np.asarray(payload["value"], dtype=np.float64), kind="stable")
+            w = np.asarray(payload["weight"], dtype=np.float64).ravel()[order]
+            sampler.weights = w
+            sampler._cum = np.cumsum(w)
+            sampler._cum[-1] = 1.0
+        return sampler
 
     def payload(self) -> dict[str, np.ndarray]:
         cols = {"value": self.values}

@@ -1,0 +1,305 @@
+"""Optimiser helpers behind :mod:`samplewright.families` (private).
+
+Three tools cover every family that has no closed-form maximum-likelihood estimate:
+
+- :func:`maximise` runs Nelder–Mead on an unconstrained parameterisation and restarts it from its
+  own answer until a restart gains nothing (a stalled simplex is the usual failure of a single
+  run); the answer is accepted only when two runs agree and the log-likelihood is finite.
+- :func:`profile_threshold` estimates the location (threshold) of a positive family by a
+  one-dimensional search over ``log(min(x) - loc)``, with the other parameters fitted exactly at
+  each trial location. It looks for an *interior* maximum: for these families the likelihood grows
+  without bound as ``loc`` approaches ``min(x)`` whenever the fitted shape is below 1.
+- one-dimensional score solvers for gamma, weibull (also right-censored), gumbel and negative
+  binomial shape parameters.
+
+Every objective is a *mean* log-likelihood (divided by the total weight), so tolerances do not
+depend on the sample size.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping, Sequence
+
+import numpy as np
+from scipy import optimize, special
+
+from .errors import FitError, MethodError
+
+Params = dict[str, float]
+# How a free parameter maps to the optimiser's unconstrained coordinate v:
+#   ("log",)        p = p0 * exp(v)                 (positive parameters)
+#   ("real", ref)   p = p0 + v * ref                (ref: a number, or the name of a start param)
+Kind = tuple[str, ...] | tuple[str, str | float]
+
+_FTOL = 1e-12  # change in mean log-likelihood below which two Nelder–Mead runs agree
+
+
+def wmean(v: np.ndarray, w: np.ndarray) -> float:
+    """Weighted mean."""
+    return float(np.sum(w * v) / np.sum(w))
+
+
+def maximise(
+    objective: Callable[[np.ndarray], float],
+    start: np.ndarray,
+    *,
+    label: str,
+    step: float = 0.1,
+    max_runs: int = 12,
+) -> tuple[np.ndarray, float]:
+    """Maximise ``objective`` (a mean log-likelihood; -inf outside the domain) from ``start``.
+
+    Returns the maximiser and the maximum. Raises FitError when the start is infeasible or the
+    runs keep improving after ``max_runs`` restarts.
+    """
+
+    def nll(v: np.ndarray) -> float:
+        with np.errstate(all="ignore"):
+            val = objective(v)
+        return -val if np.isfinite(val) else np.inf
+
+    best_v = np.asarray(start, dtype=np.float64)
+    best_f = nll(best_v)
+    if not np.isfinite(best_f):
+        raise FitError(f"{label}: the starting values give a non-finite log-likelihood")
+    d = best_v.size
+    for run in range(max_runs):
+        h = step if run == 0 else step / 4.0
+        simplex = np.vstack([best_v, best_v + h * np.eye(d)])
+        res = optimize.minimize(
+            nll,
+            best_v,
+            method="Nelder-Mead",
+            options={
+                "initial_simplex": simplex,
+                "xatol": 1e-10,
+                "fatol": 1e-14,
+                "maxiter": 2000 * d,
+                "maxfev": 4000 * d,
+                "adaptive": d > 2,
+            },
+        )
+        gain = best_f - float(res.fun)
+        if gain > 0:
+            best_v, best_f = np.asarray(res.x, dtype=np.float64), float(res.fun)
+        if run > 0 and gain <= _FTOL:
+            return best_v, -best_f
+    raise FitError(f"{label}: the optimiser did not converge after {max_runs} restarts")
+
+
+def pack(
+    start: Mapping[str, float], free: Sequence[str], kinds: Mapping[str, Kind]
+) -> Callable[[np.ndarray], Params]:
+    """A map from the unconstrained vector to a full parameter dict, centred on ``start``."""
+    refs: list[tuple[str, float]] = []
+    for name in free:
+        kind = kinds[name]
+        if kind[0] == "log":
+            refs.append(("log", 0.0))
+        else:
+            ref = kind[1]
+            refs.append(("real", float(start[ref]) if isinstance(ref, str) else float(ref)))
+    base = dict(start)
+
+    def unpack(v: np.ndarray) -> Params:
+        p = dict(base)
+        for (how, ref), name, vi in zip(refs, free, v, strict=True):
+            p[name] = base[name] * float(np.exp(vi)) if how == "log" else base[name] + vi * ref
+        return p
+
+    return unpack
+
+
+def maximise_params(
+    mean_loglik: Callable[[Params], float],
+    start: Params,
+    free: Sequence[str],
+    kinds: Mapping[str, Kind],
+    *,
+    label: str,
+) -> Params:
+    """Maximise ``mean_loglik`` over the ``free`` parameters, the others held at ``start``."""
+    unpack = pack(start, free, kinds)
+    v, _ = maximise(lambda v: mean_loglik(unpack(v)), np.zeros(len(free)), label=label)
+    return unpack(v)
+
+
+# ---------------------------------------------------------------------------------------------
+# free location (threshold) of positive families
+
+
+def profile_threshold(
+    inner: Callable[[np.ndarray, np.ndarray], tuple[Params, float]],
+    x: np.ndarray,
+    w: np.ndarray,
+    *,
+    label: str,
+    shape: str | None,
+    n_grid: int = 48,
+) -> Params:
+    """Fit ``loc`` of a positive family by profiling the likelihood over ``log(min(x) - loc)``.
+
+    ``inner(y, w)`` fits the family with location 0 to ``y = x - loc > 0`` and returns its
+    parameters and log-likelihood. The search takes the highest *interior* local maximum on a
+    grid from ``1e-8`` to ``1e3`` times the data range below ``min(x)`` and refines it with a
+    bounded Brent search. MethodError when there is none, or when ``shape`` (the name of a
+    shape parameter) ends at or below 1, where the likelihood is unbounded as ``loc`` approaches
+    ``min(x)``.
+    """
+    xmin = float(x.min())
+    spread = float(np.ptp(x))
+    if spread == 0:
+        raise MethodError(f"{label} with loc='free': all values equal {xmin!r}")
+
+    def profile(t: float) -> tuple[Params, float]:
+        loc = xmin - spread * float(np.exp(t))
+        try:
+            with np.errstate(all="ignore"):
+                p, ll = inner(x - loc, w)
+        except (FitError, MethodError):
+            return {}, -np.inf
+        p = dict(p)
+        p["loc"] = loc
+        return p, (ll if np.isfinite(ll) else -np.inf)
+
+    ts = np.linspace(np.log(1e-8), np.log(1e3), n_grid)
+    vals = np.array([profile(t)[1] for t in ts])
+    interior = [
+        i
+        for i in range(1, n_grid - 1)
+        if np.isfinite(vals[i]) and vals[i] >= vals[i - 1] and vals[i] >= vals[i + 1]
+    ]
+    if not interior:
+        raise MethodError(
+            f"{label} with loc='free': the likelihood has no interior maximum over the location "
+            f"below min(x) = {xmin!r}; pass loc as a number"
+        )
+    i = max(interior, key=lambda j: vals[j])
+    res = optimize.minimize_scalar(
+        lambda t: -profile(t)[1],
+        bounds=(ts[i - 1], ts[i + 1]),
+        method="bounded",
+        options={"xatol": 1e-10},
+    )
+    t_best = float(res.x) if -float(res.fun) >= vals[i] else float(ts[i])
+    params, _ = profile(t_best)
+    if shape is not None and params[shape] <= 1.0:
+        raise MethodError(
+            f"{label} with loc='free': fitted {shape} {params[shape]:.3g} <= 1, where the "
+            f"likelihood is unbounded as loc approaches min(x); pass loc as a number"
+        )
+    return params
+
+
+# ---------------------------------------------------------------------------------------------
+# one-dimensional score equations
+
+
+def gamma_shape(s: float) -> float:
+    """Solve ``log k - digamma(k) = s`` (s > 0) by Newton from Minka's (2002) start."""
+    if not s > 0:
+        raise FitError(f"gamma: shape equation needs log(mean) - mean(log) > 0, found {s!r}")
+    k = (3.0 - s + np.sqrt((s - 3.0) ** 2 + 24.0 * s)) / (12.0 * s)
+    for _ in range(100):
+        f = np.log(k) - special.digamma(k) - s
+        df = 1.0 / k - special.polygamma(1, k)
+        k_new = k - f / df
+        if k_new <= 0:
+            k_new = k / 2.0
+        if abs(k_new - k) <= 1e-14 * k:
+            return float(k_new)
+        k = k_new
+    raise FitError("gamma: shape equation did not converge")  # pragma: no cover
+
+
+def weibull_shape_scale(y: np.ndarray, w: np.ndarray, e: np.ndarray) -> tuple[float, float]:
+    """Weibull MLE (location 0) with weights ``w`` and event weights ``e`` (``e = w`` uncensored).
+
+    Solves ``1/k + sum(e log y)/r - sum(w y^k log y)/sum(w y^k) = 0`` with ``r = sum(e)``, then
+    ``scale^k = sum(w y^k) / r``. Values are divided by ``max(y)`` first (the equation is scale
+    free) so that ``y^k`` cannot overflow.
+    """
+    top = float(y.max())
+    lz = np.log(y / top)
+    r = float(np.sum(e))
+    mean_lz = float(np.sum(e * lz)) / r
+
+    def score(k: float) -> float:
+        ez = np.exp(k * lz)
+        return float(1.0 / k + mean_lz - np.sum(w * ez * lz) / np.sum(w * ez))
+
+    lo, hi = 1e-3, 1.0
+    while score(hi) > 0:
+        hi *= 2.0
+        if hi > 1e6:
+            raise FitError("weibull: shape equation has no root below 1e6 (data nearly constant)")
+    while score(lo) < 0:
+        lo /= 2.0
+        if lo < 1e-12:
+            raise FitError("weibull: shape equation has no root above 1e-12")
+    k = float(optimize.brentq(score, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=500))
+    scale = top * (float(np.sum(w * np.exp(k * lz))) / r) ** (1.0 / k)
+    return k, scale
+
+
+def gumbel_fit(x: np.ndarray, w: np.ndarray) -> tuple[float, float]:
+    """Gumbel (maxima) MLE: ``beta = mean(x) - sum(w x e^{-x/beta}) / sum(w e^{-x/beta})``.
+
+    Works on ``x - mean(x)`` (the fit is location equivariant) with log-sum-exp weights.
+    """
+    m = wmean(x, w)
+    z = x - m
+    sd = float(np.sqrt(wmean(z * z, w)))
+    lw = np.log(w)
+
+    def g(beta: float) -> float:
+        a = lw - z / beta
+        q = np.exp(a - a.max())
+        return float(-np.sum(q * z) / np.sum(q) - beta)
+
+    lo, hi = sd * 1e-3, sd
+    while g(lo) < 0:
+        lo /= 10.0
+        if lo < sd * 1e-12:  # pragma: no cover - g(0+) = -min(z) > 0 when the values differ
+            raise FitError("gumbel: scale equation has no positive root")
+    while g(hi) > 0:
+        hi *= 2.0
+    beta = float(optimize.brentq(g, lo, hi, xtol=1e-14 * sd, rtol=1e-14, maxiter=500))
+    a = lw - z / beta
+    amax = float(a.max())
+    mu = m - beta * (amax + float(np.log(np.sum(np.exp(a - amax)))) - float(np.log(np.sum(w))))
+    return mu, beta
+
+
+def negbin_r(x: np.ndarray, w: np.ndarray) -> float:
+    """Negative binomial size ``r`` solving ``sum w [psi(x+r) - psi(r)] = N log(1 + m/r)``.
+
+    The root exists when the weighted variance (divisor N) exceeds the mean (Anscombe, 1950);
+    the caller checks that. Solved by Brent's method on ``log r``.
+    """
+    vals, inv = np.unique(x, return_inverse=True)
+    cw = np.bincount(inv, weights=w)
+    n = float(np.sum(cw))
+    m = float(np.sum(cw * vals)) / n
+    var = float(np.sum(cw * (vals - m) ** 2)) / n
+
+    def score(t: float) -> float:
+        r = float(np.exp(t))
+        return float(
+            np.sum(cw * (special.digamma(vals + r) - special.digamma(r))) - n * np.log1p(m / r)
+        )
+
+    t0 = float(np.log(m * m / (var - m)))
+    lo, hi = t0 - 1.0, t0 + 1.0
+    while score(lo) < 0:
+        lo -= 2.0
+        if lo < np.log(1e-12):
+            raise FitError("negative_binomial: size equation has no root above 1e-12")
+    while score(hi) > 0:
+        hi += 2.0
+        if hi > np.log(1e12):
+            raise MethodError(
+                "negative_binomial: no finite size r below 1e12 (data are nearly Poisson); "
+                "use poisson"
+            )
+    return float(np.exp(optimize.brentq(score, lo, hi, xtol=1e-13, rtol=1e-13, maxiter=500)))

@@ -1,0 +1,34 @@
+"""Shared helpers for the test suite: running the CLI in-process and listing folders."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+
+import pytest
+
+from samplewright.cli import main
+
+
+@pytest.fixture
+def run_cli(capsys: pytest.CaptureFixture[str]) -> Callable[..., tuple[int, str, str]]:
+    """Run ``samplewright ARGS...`` in-process; return (exit code, stdout, stderr)."""
+
+    def run(*args: object) -> tuple[int, str, str]:
+        capsys.readouterr()  # drop anything printed before this call
+        code = main([str(a) for a in args])
+        out, err = capsys.readouterr()
+        return code, out, err
+
+    return run
+
+
+def listing(folder: Path) -> list[str]:
+    """Every name in ``folder``, hidden files included, sorted."""
+    return sorted(p.name for p in folder.iterdir())
+
+
+@pytest.fixture
+def names_in() -> Callable[[Path], list[str]]:
+    """The sorted names (hidden ones included) of the entries of a folder."""
+    return listing
