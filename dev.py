@@ -67,9 +67,10 @@ def main(argv: list[str]) -> int:
         [str(BIN / "snakemake"), "--cores", cores, "--workflow-profile", "profiles/laptop", *rest],
         cwd=demo,
     )
-    if rc == 0 and (demo / "results" / "season_risk.json").exists():
-        print("\ndev.py: risk figures in example_pipeline/results/season_risk.json and "
-              "season_risk.png; samplers in example_pipeline/store/selected/")
+    found = sorted((demo / "results").glob("*/season_risk.json"), key=lambda p: p.stat().st_mtime)
+    if rc == 0 and found:
+        print(f"\ndev.py: risk figures in {found[-1].relative_to(ROOT)} (and .png beside it); "
+              "selected samplers in example_pipeline/store/selected/")
     return rc
 
 

@@ -10,8 +10,9 @@
 #
 # Only sw_snapshot (and the sw_fingerprint checkpoint, for data made by the workflow) names the
 # raw data file; every rule below reads the content-addressed snapshot through ancient(), so
-# touching, re-downloading or converting a file reruns nothing below it. Each rule carries the
-# results version in params: bumping it (on an algorithm change) reruns everything from fitting.
+# touching, re-downloading or converting a file reruns nothing below it. Each rule from fitting
+# down carries the results version in params: bumping it (on an algorithm change) reruns them;
+# the snapshot rules carry the snapshot format version instead (snapshots hold data, not results).
 
 import samplewright.workflow as _sw
 
@@ -31,7 +32,7 @@ checkpoint sw_fingerprint:
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
     params:
-        results_version=SW.results_version,
+        snapshot_version=SW.snapshot_version,
         args=lambda wc: SW.snapshot_args(wc.dataset),
     log:
         SW_LOGS + "/fingerprint/{dataset}.log",
@@ -50,7 +51,7 @@ rule sw_snapshot:
         dataset=SW.dataset_pattern(),
         fp=_sw.KEY_PATTERN,
     params:
-        results_version=SW.results_version,
+        snapshot_version=SW.snapshot_version,
         args=lambda wc: SW.snapshot_args(wc.dataset),
     log:
         SW_LOGS + "/snapshot/{dataset}/{fp}.log",

@@ -72,8 +72,8 @@ def maximise(
             method="Nelder-Mead",
             options={
                 "initial_simplex": simplex,
-                "xatol": 1e-10,
-                "fatol": 1e-14,
+                "xatol": 1e-8,
+                "fatol": 1e-13,
                 "maxiter": 2000 * d,
                 "maxfev": 4000 * d,
                 "adaptive": d > 2,
@@ -124,6 +124,40 @@ def maximise_params(
     return unpack(v)
 
 
+def best_of(
+    mean_loglik: Callable[[Params], float],
+    starts: Sequence[Params],
+    free: Sequence[str],
+    kinds: Mapping[str, Kind],
+    *,
+    label: str,
+) -> Params:
+    """:func:`maximise_params` from several starts; the best answer wins.
+
+    Starts with a non-finite log-likelihood and runs that fail are skipped; FitError when every
+    one fails (with the last reason).
+    """
+    best: Params | None = None
+    best_ll = -np.inf
+    reason = "no feasible starting values"
+    for start in starts:
+        with np.errstate(all="ignore"):
+            if not np.isfinite(mean_loglik(start)):
+                continue
+        try:
+            p = maximise_params(mean_loglik, start, free, kinds, label=label)
+        except FitError as err:
+            reason = str(err)
+            continue
+        with np.errstate(all="ignore"):
+            ll = mean_loglik(p)
+        if ll > best_ll:
+            best, best_ll = p, ll
+    if best is None:
+        raise FitError(reason if reason.startswith(label) else f"{label}: {reason}")
+    return best
+
+
 # ---------------------------------------------------------------------------------------------
 # free location (threshold) of positive families
 
@@ -142,9 +176,10 @@ def profile_threshold(
     ``inner(y, w)`` fits the family with location 0 to ``y = x - loc > 0`` and returns its
     parameters and log-likelihood. The search takes the highest *interior* local maximum on a
     grid from ``1e-8`` to ``1e3`` times the data range below ``min(x)`` and refines it with a
-    bounded Brent search. MethodError when there is none, or when ``shape`` (the name of a
-    shape parameter) ends at or below 1, where the likelihood is unbounded as ``loc`` approaches
-    ``min(x)``.
+    bounded Brent search. MethodError when there is none, when it is not above the profile at
+    the grid point nearest ``min(x)`` (the likelihood then grows towards the unbounded limit),
+    or when ``shape`` (the name of a shape parameter) ends at or below 1, where the likelihood
+    is unbounded as ``loc`` approaches ``min(x)``.
     """
     xmin = float(x.min())
     spread = float(np.ptp(x))
@@ -175,6 +210,12 @@ def profile_threshold(
             f"below min(x) = {xmin!r}; pass loc as a number"
         )
     i = max(interior, key=lambda j: vals[j])
+    if not vals[i] > vals[0]:
+        raise MethodError(
+            f"{label} with loc='free': the likelihood keeps growing as loc approaches "
+            f"min(x) = {xmin!r} (no regular maximum); pass loc as a number"
+        )
+
     res = optimize.minimize_scalar(
         lambda t: -profile(t)[1],
         bounds=(ts[i - 1], ts[i + 1]),
@@ -200,8 +241,11 @@ def gamma_shape(s: float) -> float:
     if not s > 0:
         raise FitError(f"gamma: shape equation needs log(mean) - mean(log) > 0, found {s!r}")
     k = (3.0 - s + np.sqrt((s - 3.0) ** 2 + 24.0 * s)) / (12.0 * s)
+    best_k, best_f = k, np.inf
     for _ in range(100):
         f = np.log(k) - special.digamma(k) - s
+        if abs(f) < best_f:
+            best_k, best_f = k, abs(f)
         df = 1.0 / k - special.polygamma(1, k)
         k_new = k - f / df
         if k_new <= 0:
@@ -209,6 +253,9 @@ def gamma_shape(s: float) -> float:
         if abs(k_new - k) <= 1e-14 * k:
             return float(k_new)
         k = k_new
+    # For large k, s is tiny and rounding stops the last digits from settling: take the best.
+    if best_f <= 1e-9 * s:
+        return float(best_k)
     raise FitError("gamma: shape equation did not converge")  # pragma: no cover
 
 

@@ -158,6 +158,8 @@ def fingerprint_column_like(sampler: Any) -> str:
 def cmd_draw(args: argparse.Namespace) -> int:
     if args.n < 0:
         raise MethodError(f"-n: expected a count >= 0, found {args.n}")
+    if args.seed < 0:
+        raise MethodError(f"--seed: expected a non-negative int, found {args.seed}")
     out = Path(args.out)
     if out.suffix.lower() not in (".parquet", ".csv"):
         raise MethodError(f"--out: expected a .parquet or .csv file, found {out.name!r}")

@@ -113,6 +113,7 @@ class Family:
     _kinds: Mapping[str, Kind] = field(default_factory=dict)
     _fixed: Callable[[Mapping[str, Any]], frozenset[str]] = lambda o: frozenset()
     _fit_censored: CensFitter | None = None
+    _valid: Callable[[Params], bool] = lambda p: True
 
     def frozen(self, params: Mapping[str, float]) -> Any:
         """The scipy frozen distribution for these parameters."""
@@ -199,16 +200,20 @@ def _bounds(
     if lo is not None and hi is not None and not lo < hi:
         raise MethodError(f"options of {name}: expected lower < upper, found {lo!r} >= {hi!r}")
     if lo is not None and x.min() < lo:
-        raise MethodError(f"{name}: option lower={lo!r} is above the smallest value {x.min()!r}")
+        raise MethodError(
+            f"{name}: option lower={lo!r} is above the smallest value {float(x.min())!r}"
+        )
     if hi is not None and x.max() > hi:
-        raise MethodError(f"{name}: option upper={hi!r} is below the largest value {x.max()!r}")
+        raise MethodError(
+            f"{name}: option upper={hi!r} is below the largest value {float(x.max())!r}"
+        )
     return lo, hi
 
 
 def _counts(x: np.ndarray, name: str) -> None:
     if np.any(x < 0) or np.any(x != np.floor(x)):
         bad = x[(x < 0) | (x != np.floor(x))]
-        raise MethodError(f"{name} needs non-negative integer values; found {bad[0]!r}")
+        raise MethodError(f"{name} needs non-negative integer values; found {float(bad[0])!r}")
 
 
 def _frozen_loglik(family: Family) -> Callable[[np.ndarray, np.ndarray], Callable[[Params], float]]:
@@ -281,7 +286,7 @@ def _fit0_pareto(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
         xm = float(y.min())
     elif not 0 < xm <= y.min():
         raise MethodError(
-            f"pareto: option xm={xm!r} must be in (0, smallest x - loc = {y.min()!r}]"
+            f"pareto: option xm={xm!r} must be in (0, smallest x - loc = {float(y.min())!r}]"
         )
     s = float(np.sum(w * np.log(y / xm)))
     if s <= 0:
@@ -290,6 +295,8 @@ def _fit0_pareto(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
 
 
 def _gpd_logpdf(y: np.ndarray, xi: float, sigma: float) -> np.ndarray:
+    if xi < -1.0:  # the likelihood is unbounded below xi = -1
+        return np.full(y.shape, -np.inf)
     if abs(xi) < 1e-12:
         return -np.log(sigma) - y / sigma
     t = xi * y / sigma
@@ -306,17 +313,13 @@ def _fit0_gpd(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
     if xi0 >= 0 or s0 / -xi0 > y.max():
         starts.append({"xi": xi0, "sigma": s0})
     kinds: dict[str, Kind] = {"xi": ("real", 1.0), "sigma": ("log",)}
-    fits = [
-        _mle.maximise_params(
-            lambda p: float(np.sum(w * _gpd_logpdf(y, p["xi"], p["sigma"]))) / total,
-            s,
-            ("xi", "sigma"),
-            kinds,
-            label="generalized_pareto",
-        )
-        for s in starts
-    ]
-    return max(fits, key=lambda p: float(np.sum(w * _gpd_logpdf(y, p["xi"], p["sigma"]))))
+    return _mle.best_of(
+        lambda p: float(np.sum(w * _gpd_logpdf(y, p["xi"], p["sigma"]))) / total,
+        starts,
+        ("xi", "sigma"),
+        kinds,
+        label="generalized_pareto",
+    )
 
 
 def _fit0_inverse_gaussian(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
@@ -351,6 +354,8 @@ def _fit_gumbel(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
 
 
 def _gev_logpdf(x: np.ndarray, mu: float, sigma: float, xi: float) -> np.ndarray:
+    if xi < -1.0:  # the likelihood is unbounded below xi = -1 (Smith, 1985)
+        return np.full(x.shape, -np.inf)
     z = (x - mu) / sigma
     if abs(xi) < 1e-9:
         return -np.log(sigma) - z - np.exp(-z)
@@ -369,12 +374,8 @@ def _fit_gev(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
         return float(np.sum(w * _gev_logpdf(x, p["mu"], p["sigma"], p["xi"]))) / total
 
     kinds: dict[str, Kind] = {"mu": ("real", "sigma"), "sigma": ("log",), "xi": ("real", 1.0)}
-    fits = []
-    for xi in (0.0, 0.2, -0.2):
-        start = {"mu": mu, "sigma": beta, "xi": xi}
-        if np.isfinite(ll(start)):
-            fits.append(_mle.maximise_params(ll, start, ("mu", "sigma", "xi"), kinds, label="gev"))
-    return max(fits, key=ll)
+    starts = [{"mu": mu, "sigma": beta, "xi": xi} for xi in (0.0, 0.2, -0.2)]
+    return _mle.best_of(ll, starts, ("mu", "sigma", "xi"), kinds, label="gev")
 
 
 def _fit_beta(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
@@ -490,17 +491,8 @@ def _fit_student_t(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params
         return float(np.sum(w * _student_logpdf(x, p["mu"], p["sigma"], p["nu"]))) / total
 
     kinds: dict[str, Kind] = {"mu": ("real", "sigma"), "sigma": ("log",), "nu": ("log",)}
-    fits = [
-        _mle.maximise_params(
-            ll,
-            {"mu": med, "sigma": sigma0, "nu": nu},
-            ("mu", "sigma", "nu"),
-            kinds,
-            label="student_t",
-        )
-        for nu in (1.5, 5.0, 30.0)
-    ]
-    return max(fits, key=ll)
+    starts = [{"mu": med, "sigma": sigma0, "nu": nu} for nu in (1.5, 5.0, 30.0)]
+    return _mle.best_of(ll, starts, ("mu", "sigma", "nu"), kinds, label="student_t")
 
 
 # --- discrete ---------------------------------------------------------------------------------
@@ -541,7 +533,7 @@ def _fit_binomial(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
         raise MethodError(f"option 'n_trials' of binomial: expected an int >= 1, found {n!r}")
     _counts(x, "binomial")
     if x.max() > n:
-        raise MethodError(f"binomial: a value {x.max()!r} exceeds option n_trials={n}")
+        raise MethodError(f"binomial: a value {float(x.max())!r} exceeds option n_trials={n}")
     p = wmean(x, w) / n
     if not 0 < p < 1:
         raise MethodError(f"binomial cannot be fitted: every value is {x[0]:g} (p = {p:g})")
@@ -648,6 +640,7 @@ def _positive(
     min_obs: int = 2,
     cens: CensFitter | None = None,
     options: tuple[str, ...] = ("loc",),
+    valid: Callable[[Params], bool] = lambda p: True,
 ) -> None:
     _register(
         Family(
@@ -662,6 +655,7 @@ def _positive(
             _kinds=kinds,
             _fixed=_fixed_loc,
             _fit_censored=None if cens is None else _positive_cens(name, cens, strict),
+            _valid=valid,
         ),
         options,
     )
@@ -784,7 +778,9 @@ _positive(
     _gpd_draw,
     {"xi": ("real", 1.0), "sigma": _LOG},
     strict=False,
+    valid=lambda p: p["xi"] >= -1.0,
 )
+
 _register(
     Family(
         "gev",
@@ -795,6 +791,7 @@ _register(
         _freeze=lambda p: stats.genextreme(c=-p["xi"], loc=p["mu"], scale=p["sigma"]),
         _fit=_fit_gev,
         _draw=_gev_draw,
+        _valid=lambda p: p["xi"] >= -1.0,
         _kinds={"mu": ("real", "sigma"), "sigma": _LOG, "xi": ("real", 1.0)},
     )
 )
@@ -868,6 +865,8 @@ _register(
         _fit=_fit_student_t,
         _draw=lambda p, size, rng: p["mu"] + p["sigma"] * rng.standard_t(p["nu"], size),
         _kinds={"mu": ("real", "sigma"), "sigma": _LOG, "nu": _LOG},
+        _valid=lambda p: p["nu"] <= 1e8,  # beyond, the fit is a normal one: stop there
+
     )
 )
 _positive(
@@ -965,12 +964,19 @@ def _fit_censored_generic(
     family: Family, x: np.ndarray, w: np.ndarray, c: np.ndarray, options: Mapping[str, Any]
 ) -> Params:
     """Maximise the censored likelihood from the fit that treats every value as observed."""
-    start = family._fit(x, w, options)
+    try:
+        start = family._fit(x, w, options)
+    except (FitError, MethodError):  # e.g. many values censored at one time: start from events
+        start = family._fit(x[~c], w[~c], options)
     start = {k: float(start[k]) for k in family.param_names}
     free = [k for k in family.param_names if k not in family._fixed(options)]
     total = float(np.sum(w))
+
+    def mean_loglik(p: Params) -> float:
+        return loglik(family, p, x, w, c) / total if family._valid(p) else -np.inf
+
     return _mle.maximise_params(
-        lambda p: loglik(family, p, x, w, c) / total,
+        mean_loglik,
         start,
         free,
         family._kinds,

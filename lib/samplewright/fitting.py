@@ -155,7 +155,7 @@ def read_knots(path: str | Path) -> PiecewiseSampler:
             raise KnotsError(f"{path}: expected a mapping with keys x and p, or a list of "
                              "[x, p] pairs")
     elif suffix in (".csv", ".tsv", ".tab"):
-        from .intake import read_raw_columns, _to_float
+        from .intake import _to_float, read_raw_columns
 
         cols = read_raw_columns(path, ["x", "p"])
         x, p = _to_float(cols["x"], path, "x"), _to_float(cols["p"], path, "p")

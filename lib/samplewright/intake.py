@@ -164,7 +164,8 @@ def read_column(
         if missing == "error":
             raise InputDataError(
                 f"column {column!r} in {path.name} has {int(nan.sum())} missing values "
-                f"(first at row {_first_row(nan)}); use missing='drop' (--missing drop) to drop them"
+                f"(first at row {_first_row(nan)}); use missing='drop' (--missing drop) "
+                "to drop them"
             )
         dropped["missing"] = int(nan.sum())
         keep &= ~nan
@@ -173,7 +174,8 @@ def read_column(
         if infinite == "error":
             raise InputDataError(
                 f"column {column!r} in {path.name} has {int(inf.sum())} infinite values "
-                f"(first at row {_first_row(inf)}); use infinite='drop' (--infinite drop) to drop them"
+                f"(first at row {_first_row(inf)}); use infinite='drop' (--infinite drop) "
+                "to drop them"
             )
         dropped["infinite"] = int(inf.sum())
         keep &= ~inf
@@ -216,7 +218,8 @@ def read_column(
         raise InputDataError(f"column {column!r} in {path.name}: no rows left to use")
     if values.size < min_rows:
         raise InputDataError(
-            f"column {column!r} in {path.name}: {values.size} usable rows, at least {min_rows} needed"
+            f"column {column!r} in {path.name}: {values.size} usable rows, "
+            f"at least {min_rows} needed"
         )
     return ColumnData(
         values=np.ascontiguousarray(values),

@@ -34,6 +34,7 @@ __all__ = [
     "Plan",
     "check",
     "draws",
+    "keyed",
     "load_config",
     "rules_path",
     "sampler",
@@ -195,6 +196,9 @@ class Plan:
         self.store = self.config["store"].rstrip("/")
         self.root_seed = int(self.config["root_seed"])
         self.results_version = RESULTS_VERSION
+        from .fingerprint import FINGERPRINT_VERSION
+
+        self.snapshot_version = FINGERPRINT_VERSION
         self.python = sys.executable
         self.checkpoints = checkpoints
         self.datasets: dict[str, dict[str, Any]] = self.config["datasets"]
@@ -411,6 +415,29 @@ def check(name: str) -> Any:
     """Path of the check summary (JSON; Markdown beside it) of dataset ``name``."""
     plan = current_plan()
     return plan.lazy(plan.check_path, _dataset(plan, name))
+
+
+def keyed(template: str, *datasets: str) -> str:
+    """A content-addressed path for *your* downstream outputs.
+
+    ``{key}`` in ``template`` is replaced by a key of the selected samplers of ``datasets``
+    (their select keys) and the template itself. Use it for a downstream rule's output (and in
+    ``rule all``) so that reverting the data finds the earlier results again instead of
+    recomputing them. Only for datasets known at parse time (not ``produced: true``).
+
+    >>> # keyed("results/{key}/season.json", "repair_hours")  ->  "results/3f0c.../season.json"
+    """
+    plan = current_plan()
+    if "{key}" not in template:
+        raise ConfigError(f"keyed: template {template!r} has no '{{key}}' placeholder")
+    keys = []
+    for name in datasets:
+        _dataset(plan, name)
+        if plan.is_produced(name):
+            raise ConfigError(f"keyed: dataset {name!r} is produced by the workflow; its key is "
+                              "known only after the checkpoint")
+        keys.append([name, plan.select_key(name)])
+    return template.replace("{key}", _h("keyed", keys, template, plan.results_version))
 
 
 def targets() -> list[Any]:

@@ -50,7 +50,7 @@ def test_csv_numbers_are_parsed_exactly(tmp_path: Path) -> None:
     x = np.random.default_rng(0).lognormal(0.0, 3.0, 2000)
     f = tmp_path / "many.csv"
     f.write_text("v\n" + "\n".join(repr(float(v)) for v in x) + "\n")
-    # source: Python's repr(float) round-trips exactly (shortest repr, PEP 3101 / Python docs)
+    # source: Python docs (floating-point tutorial): repr(float) reads back to the same float
     np.testing.assert_array_equal(read_column(f, "v").values, x)
 
 
@@ -68,7 +68,7 @@ def test_missing_tokens_are_exactly_the_documented_ones() -> None:
 @pytest.mark.parametrize("token", MISSING_TOKENS)
 def test_each_missing_token_is_an_error_by_default(tmp_path: Path, token: str) -> None:
     """Each missing token stops the read with the row number and the way to drop it."""
-    f = _write(tmp_path / "d.csv", f"v\n1\n2\n{token}\n")
+    f = _write(tmp_path / "d.csv", f"v,id\n1,a\n2,b\n{token},c\n")
     with pytest.raises(InputDataError) as info:
         read_column(f, "v")
     assert str(info.value) == (
@@ -79,7 +79,7 @@ def test_each_missing_token_is_an_error_by_default(tmp_path: Path, token: str) -
 
 def test_missing_drop_counts_what_it_dropped(tmp_path: Path) -> None:
     """missing='drop' removes missing rows and records how many."""
-    f = _write(tmp_path / "d.csv", "v\n1\nNA\n2\n\n3\n")
+    f = _write(tmp_path / "d.csv", "v,id\n1,a\nNA,b\n2,c\n,d\n3,e\n")
     data = read_column(f, "v", missing="drop")
     np.testing.assert_array_equal(data.values, [1.0, 2.0, 3.0])
     assert data.dropped == {"missing": 2} and data.n_rows_read == 5
@@ -98,8 +98,11 @@ def test_parquet_nulls_are_missing_values(tmp_path: Path) -> None:
 def test_infinite_values_are_an_error_by_default(tmp_path: Path, text: str) -> None:
     """An infinite value stops the read, naming the column, file and first row."""
     f = _write(tmp_path / "d.csv", f"v\n1\n{text}\n")
-    with pytest.raises(InputDataError, match=r"column 'v' in d.csv has 1 infinite values "
-                                             r"\(first at row 2\)"):
+    with pytest.raises(
+        InputDataError,
+        match=r"column 'v' in d.csv has 1 infinite values "
+        r"\(first at row 2\)",
+    ):
         read_column(f, "v")
 
 
@@ -123,8 +126,7 @@ def test_non_numeric_message_names_column_file_row_and_text(tmp_path: Path) -> N
 
 def test_one_non_numeric_value_is_singular(tmp_path: Path) -> None:
     """A single bad cell is reported as '1 non-numeric value'."""
-    f = _write(tmp_path / "d.csv", "v\n1\n1,5\n")
-    f.write_text('v\n1\n"1,5"\n')
+    f = _write(tmp_path / "d.csv", 'v\n1\n"1,5"\n')
     with pytest.raises(InputDataError, match=r"has 1 non-numeric value \(first at row 2: '1,5'\)"):
         read_column(f, "v")
 
@@ -196,7 +198,7 @@ def test_missing_weight_column_is_reported(tmp_path: Path) -> None:
 
 def test_no_rows_left_after_dropping(tmp_path: Path) -> None:
     """Dropping every row is an error, not an empty result."""
-    f = _write(tmp_path / "d.csv", "v\nNA\n\n")
+    f = _write(tmp_path / "d.csv", "v,id\nNA,a\n,b\n")
     with pytest.raises(InputDataError, match="column 'v' in d.csv: no rows left to use"):
         read_column(f, "v", missing="drop")
 

@@ -1,0 +1,87 @@
+"""Helpers for running real Snakemake on temporary copies of the example pipeline."""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import subprocess
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+EXAMPLE = ROOT / "example_pipeline"
+BIN = Path(sys.executable).parent
+SNAKEMAKE = str(BIN / "snakemake")
+# Turn off Snakemake's own checksum shortcut so the tests prove samplewright's mechanism.
+BASE_ARGS = ["--cores", "2", "--max-checksum-file-size", "0"]
+_IGNORE = shutil.ignore_patterns("store", "results", "logs", ".snakemake", "data", "__pycache__")
+
+
+@dataclass
+class Run:
+    returncode: int
+    out: str
+
+    def jobs(self) -> set[tuple[str, str]]:
+        """(rule, dataset or '') of every job a dry run plans."""
+        return parse_jobs(self.out)
+
+
+def parse_jobs(text: str) -> set[tuple[str, str]]:
+    jobs: set[tuple[str, str]] = set()
+    rule = None
+    dataset = ""
+    for line in text.splitlines():
+        m = re.match(r"^(?:local)?(?:rule|checkpoint) (\w+):$", line.strip())
+        if m:
+            if rule is not None:
+                jobs.add((rule, dataset))
+            rule, dataset = m.group(1), ""
+            continue
+        m = re.match(r"^\s+wildcards: (.*)$", line)
+        if m and rule is not None:
+            w = dict(kv.split("=", 1) for kv in m.group(1).split(", ") if "=" in kv)
+            dataset = w.get("dataset", "")
+    if rule is not None:
+        jobs.add((rule, dataset))
+    return jobs
+
+
+def snakemake(workdir: Path, *args: str, env: dict[str, str] | None = None,
+              timeout: int = 600) -> Run:
+    full_env = dict(os.environ)
+    full_env["PATH"] = f"{BIN}{os.pathsep}{full_env.get('PATH', '')}"
+    full_env.update(env or {})
+    proc = subprocess.run([SNAKEMAKE, *BASE_ARGS, *args], cwd=workdir, env=full_env,
+                          capture_output=True, text=True, timeout=timeout)
+    return Run(proc.returncode, proc.stdout + proc.stderr)
+
+
+def dry(workdir: Path, *args: str, env: dict[str, str] | None = None) -> Run:
+    run = snakemake(workdir, "-n", *args, env=env)
+    assert run.returncode == 0, run.out[-3000:]
+    return run
+
+
+def nothing_to_do(run: Run) -> bool:
+    return "Nothing to be done" in run.out
+
+
+def copy_example(dest: Path) -> Path:
+    """A fresh copy of the example pipeline with its invented data generated."""
+    shutil.copytree(EXAMPLE, dest, ignore=_IGNORE)
+    subprocess.run([sys.executable, "make_data.py"], cwd=dest, check=True)
+    return dest
+
+
+@pytest.fixture(scope="session")
+def pipeline(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A copy of the example pipeline after one complete run."""
+    work = copy_example(tmp_path_factory.mktemp("pipeline") / "example")
+    run = snakemake(work)
+    assert run.returncode == 0, run.out[-5000:]
+    return work

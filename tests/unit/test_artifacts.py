@@ -1,0 +1,407 @@
+"""Unit tests for samplewright.artifacts: writing, loading, hashing and tamper detection."""
+
+from __future__ import annotations
+
+import ast
+import datetime as dt
+import json
+import pickle
+import types
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+import samplewright
+import samplewright.artifacts as art
+from samplewright.artifacts import (
+    METADATA_KEY,
+    content_hash,
+    load_sampler,
+    read_metadata,
+    verify_artifact,
+    write_sampler,
+)
+from samplewright.errors import ArtifactError, IntegrityError
+from samplewright.fitting import fit
+from samplewright.samplers import EmpiricalSampler, Sampler, from_knots
+
+DATA = np.random.default_rng(41).gamma(2.0, 1.5, 60) + 0.1  # demo data
+WEIGHTS = np.random.default_rng(42).uniform(0.2, 3.0, 60)  # demo data
+U = np.linspace(0.0, 1.0, 257)
+Q = np.linspace(-1.0, 15.0, 333)
+
+
+def _samplers() -> dict[str, Callable[[], Sampler]]:
+    return {
+        "empirical": lambda: fit(DATA, "empirical"),
+        "empirical_weighted": lambda: fit(DATA, "empirical", weights=WEIGHTS),
+        "knots": lambda: from_knots([0, 2, 2, 4, 9], [0, 0.3, 0.5, 0.5, 1]),
+        "interpolated": lambda: fit(DATA, "interpolated"),
+        "normal": lambda: fit(DATA, "normal"),
+        "lognormal": lambda: fit(DATA, "lognormal"),
+        "exponential": lambda: fit(DATA, "exponential"),
+        "gamma": lambda: fit(DATA, "gamma"),
+        "weibull": lambda: fit(DATA, "weibull"),
+        "gamma_loc": lambda: fit(DATA, "gamma", loc=0.05),
+    }
+
+
+SAMPLERS = _samplers()
+
+
+def _meta(path: Path) -> dict:
+    return json.loads(pq.read_schema(path).metadata[METADATA_KEY])
+
+
+def _rewrite(path: Path, table: pa.Table, meta: dict) -> None:
+    """Write ``table`` to ``path`` with ``meta`` as its samplewright metadata (no rehashing)."""
+    table = table.replace_schema_metadata({METADATA_KEY: json.dumps(meta).encode()})
+    pq.write_table(table, path)
+
+
+@pytest.mark.parametrize("name", list(SAMPLERS))
+def test_round_trip_keeps_cdf_and_quantile_identical(tmp_path: Path, name: str) -> None:
+    """Every sampler kind loads back with bit-identical cdf, quantile, mean and support."""
+    s = SAMPLERS[name]()
+    path = tmp_path / f"{name}.parquet"
+    write_sampler(s, path)
+    back = load_sampler(path)
+    assert type(back) is type(s) and back.method == s.method and back.params == s.params
+    np.testing.assert_array_equal(back.cdf(Q), s.cdf(Q))
+    np.testing.assert_array_equal(back.quantile(U), s.quantile(U))
+    assert (back.mean, back.var, back.support) == (s.mean, s.var, s.support)
+    for attr in ("loglik", "aic", "bic"):
+        assert getattr(back, attr, None) == getattr(s, attr, None)
+
+
+@pytest.mark.parametrize("name", list(SAMPLERS))
+def test_same_artifact_and_seed_give_identical_draws(tmp_path: Path, name: str) -> None:
+    """Loading twice, or after rewriting the loaded sampler, gives the same draws for a seed."""
+    path = tmp_path / "a.parquet"
+    write_sampler(SAMPLERS[name](), path)
+    first = load_sampler(path).draw(500, rng=samplewright.stream_rng(9, "x"))
+    again = load_sampler(path).draw(500, rng=samplewright.stream_rng(9, "x"))
+    np.testing.assert_array_equal(again, first)
+    copy = tmp_path / "b.parquet"
+    meta = write_sampler(load_sampler(path), copy)
+    np.testing.assert_array_equal(
+        load_sampler(copy).draw(500, rng=samplewright.stream_rng(9, "x")), first
+    )
+    assert meta["content_hash"] == _meta(path)["content_hash"]  # rewrite keeps the content
+
+
+def _fixed_clock(when: dt.datetime) -> types.SimpleNamespace:
+    class Clock(dt.datetime):
+        @classmethod
+        def now(cls, tz: dt.tzinfo | None = None) -> dt.datetime:  # type: ignore[override]
+            return when
+
+    return types.SimpleNamespace(datetime=Clock, UTC=dt.UTC)
+
+
+def test_content_hash_ignores_time_and_path(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The same sampler written at two times to two paths has one content hash, two records."""
+    s = SAMPLERS["gamma"]()
+    monkeypatch.setattr(art, "_dt", _fixed_clock(dt.datetime(2024, 1, 1, tzinfo=dt.UTC)))
+    a = write_sampler(s, tmp_path / "one" / "a.parquet", fingerprint="f" * 64, key="k1")
+    monkeypatch.setattr(art, "_dt", _fixed_clock(dt.datetime(2025, 6, 30, tzinfo=dt.UTC)))
+    b = write_sampler(s, tmp_path / "two" / "b.parquet", fingerprint="f" * 64, key="k1")
+    assert a["provenance"]["created_at"] != b["provenance"]["created_at"]
+    assert a["content_hash"] == b["content_hash"]
+    assert a["record_hash"] != b["record_hash"]
+    assert _meta(tmp_path / "one" / "a.parquet")["content_hash"] == a["content_hash"]
+
+
+def test_content_hash_depends_on_what_is_hashed(tmp_path: Path) -> None:
+    """Another fingerprint, key, data section or sampler gives another content hash."""
+    s = SAMPLERS["knots"]()
+    base = write_sampler(s, tmp_path / "a.parquet")["content_hash"]
+    others = {
+        write_sampler(s, tmp_path / "b.parquet", fingerprint="0" * 64)["content_hash"],
+        write_sampler(s, tmp_path / "c.parquet", key="k")["content_hash"],
+        write_sampler(s, tmp_path / "d.parquet", data={"n_obs": 3})["content_hash"],
+        write_sampler(from_knots([0, 1], [0, 1]), tmp_path / "e.parquet")["content_hash"],
+    }
+    assert base not in others and len(others) == 4
+    same = write_sampler(s, tmp_path / "f.parquet", provenance={"source": "elsewhere"})
+    assert same["content_hash"] == base  # provenance is not content
+
+
+def test_content_hash_follows_the_documented_construction(tmp_path: Path) -> None:
+    """content_hash is sha256 over the prefix, payload columns and sorted-key JSON (README)."""
+    import hashlib
+
+    s = SAMPLERS["empirical_weighted"]()
+    meta = write_sampler(s, tmp_path / "a.parquet", fingerprint="ab" * 32)
+    h = hashlib.sha256(b"samplewright-content-v1")  # source: README "Artifact format"
+    for name, arr in s.payload().items():
+        h.update(f"|{name}|{arr.size}|".encode() + np.asarray(arr, "<f8").tobytes())
+    doc = {
+        k: meta[k]
+        for k in ("format_version", "sampler", "fingerprint", "key", "data", "diagnostics")
+    }
+    h.update(json.dumps(doc, sort_keys=True, separators=(",", ":")).encode())
+    assert meta["content_hash"] == "sha256:" + h.hexdigest()
+    assert content_hash(s.payload(), meta) == meta["content_hash"]
+
+
+def test_metadata_is_one_plain_json_key(tmp_path: Path) -> None:
+    """The schema metadata is exactly one key holding JSON; payload columns are float64."""
+    path = tmp_path / "a.parquet"
+    write_sampler(SAMPLERS["empirical_weighted"](), path)
+    schema = pq.read_schema(path)
+    assert list(schema.metadata) == [b"samplewright"]  # no pandas or other (pickled) metadata
+    meta = json.loads(schema.metadata[b"samplewright"].decode("utf-8"))
+    assert meta["format"] == "samplewright-sampler" and meta["format_version"] == 1
+    assert schema.names == ["value", "weight"]
+    assert all(t == pa.float64() for t in schema.types)
+    assert set(meta) == {
+        "format",
+        "format_version",
+        "sampler",
+        "fingerprint",
+        "key",
+        "data",
+        "diagnostics",
+        "content_hash",
+        "provenance",
+        "record_hash",
+    }
+    assert set(meta["provenance"]["versions"]) == {
+        "samplewright",
+        "python",
+        "numpy",
+        "scipy",
+        "pandas",
+        "pyarrow",
+    }
+
+
+def test_parametric_payload_is_an_empty_table(tmp_path: Path) -> None:
+    """A parametric artifact has no columns and no rows; its parameters live in the metadata."""
+    path = tmp_path / "g.parquet"
+    write_sampler(SAMPLERS["gamma"](), path)
+    t = pq.read_table(path)
+    assert (t.num_columns, t.num_rows) == (0, 0)
+    assert set(_meta(path)["sampler"]["params"]) == {"shape", "scale", "loc"}
+
+
+def test_loading_never_unpickles(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Loading and verifying work with every pickle entry point disabled."""
+    path = tmp_path / "a.parquet"
+    write_sampler(SAMPLERS["knots"](), path)
+
+    def refuse(*args: object, **kwargs: object) -> None:
+        raise AssertionError("pickle was used")
+
+    for name in ("load", "loads", "Unpickler"):
+        monkeypatch.setattr(pickle, name, refuse)
+    assert load_sampler(path).method == "knots"
+    verify_artifact(path)
+
+
+def test_package_source_never_imports_pickle() -> None:
+    """No module of the package imports pickle, dill, cloudpickle or joblib."""
+    banned = {"pickle", "dill", "cloudpickle", "joblib", "shelve", "marshal"}
+    root = Path(samplewright.__file__).parent
+    for file in root.glob("*.py"):
+        for node in ast.walk(ast.parse(file.read_text())):
+            if isinstance(node, ast.Import):
+                names = {a.name.split(".")[0] for a in node.names}
+            elif isinstance(node, ast.ImportFrom):
+                names = {(node.module or "").split(".")[0]}
+            else:
+                continue
+            assert not names & banned, f"{file.name} imports {names & banned}"
+
+
+# --- tampering -------------------------------------------------------------------------------
+
+
+def test_edited_payload_value_is_detected(tmp_path: Path) -> None:
+    """Changing one payload value but keeping the metadata makes load and verify refuse it."""
+    path = tmp_path / "a.parquet"
+    write_sampler(SAMPLERS["empirical"](), path)
+    table = pq.read_table(path)
+    meta = _meta(path)
+    values = table.column("value").to_numpy().copy()
+    values[7] = np.nextafter(values[7], np.inf)
+    _rewrite(path, pa.table({"value": values}), meta)
+    with pytest.raises(IntegrityError, match="content hash mismatch"):
+        load_sampler(path)
+    with pytest.raises(IntegrityError):
+        verify_artifact(path)
+    with pytest.raises(IntegrityError):
+        read_metadata(path)
+    assert read_metadata(path, verify=False)["content_hash"] == meta["content_hash"]
+
+
+def test_removed_payload_column_is_detected(tmp_path: Path) -> None:
+    """Dropping the weight column (weighted becomes unweighted) is detected."""
+    path = tmp_path / "a.parquet"
+    write_sampler(SAMPLERS["empirical_weighted"](), path)
+    table = pq.read_table(path)
+    _rewrite(path, table.select(["value"]), _meta(path))
+    with pytest.raises(IntegrityError, match="content hash mismatch"):
+        load_sampler(path)
+
+
+@pytest.mark.parametrize(
+    ("edit", "message"),
+    [
+        (
+            lambda m: m["sampler"]["params"].update(shape=m["sampler"]["params"]["shape"] * 1.01),
+            "content hash mismatch",
+        ),
+        (lambda m: m["sampler"].update(method="weibull"), "content hash mismatch"),
+        (lambda m: m["data"].update(n_obs=1), "content hash mismatch"),
+        (lambda m: m.update(fingerprint="0" * 64), "content hash mismatch"),
+        (lambda m: m["provenance"].update(source="other.csv"), "record hash mismatch"),
+        (
+            lambda m: m["provenance"].update(created_at="1999-01-01T00:00:00+00:00"),
+            "record hash mismatch",
+        ),
+        (lambda m: m.update(content_hash="sha256:" + "0" * 64), "content hash mismatch"),
+        (lambda m: m.pop("record_hash"), "record hash mismatch"),
+    ],
+    ids=[
+        "params",
+        "method",
+        "data",
+        "fingerprint",
+        "provenance",
+        "created_at",
+        "content_hash",
+        "record_hash",
+    ],
+)
+def test_edited_metadata_is_detected(
+    tmp_path: Path, edit: Callable[[dict], object], message: str
+) -> None:
+    """Editing any metadata field, hashed content or provenance, raises IntegrityError."""
+    path = tmp_path / "g.parquet"
+    write_sampler(
+        SAMPLERS["gamma"](), path, data={"n_obs": 60}, provenance={"source": "repairs.csv"}
+    )
+    meta = _meta(path)
+    edit(meta)
+    _rewrite(path, pq.read_table(path), meta)
+    with pytest.raises(IntegrityError, match=message):
+        load_sampler(path)
+    with pytest.raises(IntegrityError, match=message):
+        verify_artifact(path)
+
+
+def test_unhashable_metadata_is_an_integrity_error(tmp_path: Path) -> None:
+    """Metadata containing a NaN (not valid canonical JSON) is refused as altered."""
+    path = tmp_path / "g.parquet"
+    write_sampler(SAMPLERS["gamma"](), path)
+    meta = _meta(path)
+    meta["sampler"]["params"]["shape"] = float("nan")
+    _rewrite(path, pq.read_table(path), meta)
+    with pytest.raises(IntegrityError, match="cannot be hashed"):
+        load_sampler(path)
+
+
+@pytest.mark.parametrize(
+    ("setup", "message"),
+    [
+        (lambda p: None, "artifact not found"),
+        (lambda p: p.write_text("junk"), "not a readable Parquet file"),
+        (lambda p: pq.write_table(pa.table({"x": [1.0]}), p), "no samplewright metadata"),
+        (
+            lambda p: pq.write_table(
+                pa.table({"x": [1.0]}).replace_schema_metadata({METADATA_KEY: b"{bad"}), p
+            ),
+            "not valid JSON",
+        ),
+        (
+            lambda p: pq.write_table(
+                pa.table({"x": [1.0]}).replace_schema_metadata(
+                    {METADATA_KEY: b'{"format": "other"}'}
+                ),
+                p,
+            ),
+            "does not describe a samplewright",
+        ),
+        (
+            lambda p: pq.write_table(
+                pa.table({"x": [1.0]}).replace_schema_metadata(
+                    {METADATA_KEY: b'{"format": "samplewright-sampler", "format_version": 99}'}
+                ),
+                p,
+            ),
+            "format_version 99 is not supported",
+        ),
+    ],
+    ids=["missing", "junk", "no-meta", "bad-json", "other-format", "future-version"],
+)
+def test_unusable_files_are_artifact_errors(
+    tmp_path: Path, setup: Callable[[Path], object], message: str
+) -> None:
+    """Missing, non-Parquet, foreign and future-format files raise ArtifactError."""
+    path = tmp_path / "a.parquet"
+    setup(path)
+    with pytest.raises(ArtifactError, match=message):
+        load_sampler(path)
+
+
+def test_unknown_kind_with_valid_hashes_is_refused(tmp_path: Path) -> None:
+    """An artifact whose (rehashed) sampler kind is unknown cannot be rebuilt."""
+    path = tmp_path / "a.parquet"
+    write_sampler(SAMPLERS["knots"](), path)
+    table = pq.read_table(path)
+    meta = _meta(path)
+    meta["sampler"]["kind"] = "future-kind"
+    payload = {n: table.column(n).to_numpy() for n in table.column_names}
+    meta["content_hash"] = content_hash(payload, meta)
+    meta["record_hash"] = art._record_hash(payload, meta)
+    _rewrite(path, table, meta)
+    with pytest.raises(ArtifactError, match="unknown sampler kind 'future-kind'"):
+        load_sampler(path)
+
+
+# --- atomic writes ---------------------------------------------------------------------------
+
+
+def _half_write_then_fail(table: pa.Table, where: str, **kwargs: object) -> None:
+    Path(where).write_bytes(b"PAR1 partial")
+    raise OSError("disk full (simulated)")
+
+
+def test_failed_write_leaves_no_file_and_no_temp(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A write that fails midway leaves neither the artifact nor a temporary file."""
+    monkeypatch.setattr(pq, "write_table", _half_write_then_fail)
+    with pytest.raises(OSError, match="disk full"):
+        write_sampler(SAMPLERS["knots"](), tmp_path / "a.parquet")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_failed_rewrite_keeps_the_old_artifact(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A failed overwrite leaves the previous artifact intact and loadable."""
+    path = tmp_path / "a.parquet"
+    old = write_sampler(SAMPLERS["knots"](), path)
+    monkeypatch.setattr(pq, "write_table", _half_write_then_fail)
+    with pytest.raises(OSError):
+        write_sampler(SAMPLERS["gamma"](), path)
+    assert [p.name for p in tmp_path.iterdir()] == ["a.parquet"]
+    monkeypatch.undo()
+    assert load_sampler(path).metadata["content_hash"] == old["content_hash"]
+
+
+def test_write_creates_parent_folders(tmp_path: Path) -> None:
+    """Writing into a folder that does not exist yet creates it."""
+    path = tmp_path / "deep" / "er" / "a.parquet"
+    write_sampler(EmpiricalSampler([1.0, 2.0]), path)
+    assert load_sampler(path).params == {"n": 2, "weighted": False}
+    assert [p.name for p in path.parent.iterdir()] == ["a.parquet"]
