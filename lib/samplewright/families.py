@@ -52,7 +52,11 @@ size used by BIC is ``sum(w)``. Right-censored values (``censored=`` a boolean a
 the value is a lower bound on the true one) contribute ``w * log S(x)`` instead; censoring is
 available for every continuous family except uniform and triangular, with ``loc`` fixed.
 
+Shape limits: gev and generalized_pareto are fitted with ``xi >= -1`` (below it the likelihood
+is unbounded); student_t with ``nu <= 1e8`` (a larger ``nu`` is a normal fit).
+
 Every fit is checked: the log-likelihood must be finite and the fitted support must contain every
+
 uncensored value (scipy's generic optimiser can silently return a location above the smallest
 value). Closed-form estimates are used where they exist; the rest use :mod:`._mle`.
 """
@@ -866,7 +870,6 @@ _register(
         _draw=lambda p, size, rng: p["mu"] + p["sigma"] * rng.standard_t(p["nu"], size),
         _kinds={"mu": ("real", "sigma"), "sigma": _LOG, "nu": _LOG},
         _valid=lambda p: p["nu"] <= 1e8,  # beyond, the fit is a normal one: stop there
-
     )
 )
 _positive(

@@ -322,7 +322,7 @@ def goodness_of_fit(
             f"weights: replicates would have {m} values; {family} needs {fam.min_obs}"
         )
     null, failed = _bootstrap(fam, out, m, n_resamples, batch, gen, fit_options)
-    # NaN rows (failed refits) compare False here and are added back as exceedances.
+    # T* >= T up to rounding (a replicate equal to the data must count); NaN rows compare False
     exceed = np.sum(null >= observed * (1.0 - 1e-12), axis=0) + failed
     pvalues = (1.0 + exceed) / (1.0 + n_resamples)
     return GoodnessOfFitResult(

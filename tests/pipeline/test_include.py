@@ -1,0 +1,63 @@
+"""`include:` and `module` use the same rule file and make the same artifacts (issue case 11)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+import samplewright
+
+from .conftest import copy_example, dry, nothing_to_do, snakemake
+
+pytestmark = pytest.mark.pipeline
+
+MODULE_BLOCK = '''module samplewright:
+    snakefile:
+        samplewright.rules_path()
+    config:
+        config["samplewright"]
+
+
+use rule * from samplewright
+'''
+
+
+def _artifacts(work: Path) -> dict[str, str]:
+    """Relative path -> content hash of every sampler artifact in the store."""
+    out = {}
+    for sub in ("samplers", "selected"):
+        for path in sorted((work / "store" / sub).rglob("*.parquet")):
+            out[str(path.relative_to(work))] = samplewright.read_metadata(path)["content_hash"]
+    return out
+
+
+def test_include_and_module_make_identical_artifacts(pipeline: Path, tmp_path: Path) -> None:
+    """A copy whose Snakefile uses include: plans nothing on the module run's store and, run
+    fresh, writes the same paths, content hashes, draws and risk figures."""
+    text = (pipeline / "Snakefile").read_text()
+    assert MODULE_BLOCK in text
+    included = text.replace(MODULE_BLOCK, "include: samplewright.rules_path()\n")
+    (pipeline / "Snakefile.include").write_text(included)
+    try:
+        # the include form plans the very same paths: nothing to do on the module run's store
+        assert nothing_to_do(dry(pipeline, "-s", "Snakefile.include"))
+    finally:
+        (pipeline / "Snakefile.include").unlink()
+
+    fresh = copy_example(tmp_path / "fresh")
+    (fresh / "Snakefile").write_text(included)
+    run = snakemake(fresh)
+    assert run.returncode == 0, run.out[-3000:]
+    assert _artifacts(fresh) == _artifacts(pipeline)
+    assert len(_artifacts(fresh)) >= 13
+    risk_a = sorted((pipeline / "results").glob("*/season_risk.json"))
+    risk_b = sorted((fresh / "results").glob("*/season_risk.json"))
+    assert [p.relative_to(pipeline) for p in risk_a] == [p.relative_to(fresh) for p in risk_b]
+    assert json.loads(risk_a[0].read_text()) == json.loads(risk_b[0].read_text())
+    import pandas as pd
+
+    for path in sorted((pipeline / "store" / "draws").rglob("*.parquet")):
+        other = fresh / path.relative_to(pipeline)
+        assert pd.read_parquet(path).equals(pd.read_parquet(other))
