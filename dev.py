@@ -30,9 +30,10 @@ def _wanted_stamp() -> str:
 
 def ensure_venv() -> None:
     """Create ./.venv and install the project with its test extra, unless already current."""
-    if sys.version_info < (3, 11):
+    if sys.version_info < (3, 11):  # noqa: UP036 - dev.py itself may run on an older Python
         sys.exit(f"dev.py: Python 3.11 or newer is needed, found {sys.version.split()[0]}")
-    if STAMP.exists() and STAMP.read_text() == _wanted_stamp() and PY.exists():
+    current = STAMP.exists() and STAMP.read_text() == _wanted_stamp()
+    if current and PY.exists():
         return
     print("dev.py: setting up .venv (first use or pyproject.toml changed) ...", flush=True)
     if not PY.exists():
@@ -69,8 +70,10 @@ def main(argv: list[str]) -> int:
     )
     found = sorted((demo / "results").glob("*/season_risk.json"), key=lambda p: p.stat().st_mtime)
     if rc == 0 and found:
-        print(f"\ndev.py: risk figures in {found[-1].relative_to(ROOT)} (and .png beside it); "
-              "selected samplers in example_pipeline/store/selected/")
+        print(
+            f"\ndev.py: risk figures in {found[-1].relative_to(ROOT)} (and .png beside it); "
+            "selected samplers in example_pipeline/store/selected/"
+        )
     return rc
 
 

@@ -31,24 +31,27 @@ DISTRICTS = [f"D{i:02d}" for i in range(1, 25)]
 
 def make_repairs(rng: np.random.Generator, n: int = 30_000) -> pd.DataFrame:
     district = rng.choice(DISTRICTS, n)
-    material = rng.choice(["cast_iron", "ductile", "pvc", "asbestos_cement"], n,
-                          p=[0.35, 0.3, 0.25, 0.1])
+    material = rng.choice(
+        ["cast_iron", "ductile", "pvc", "asbestos_cement"], n, p=[0.35, 0.3, 0.25, 0.1]
+    )
     crew = rng.choice([2, 3, 4], n, p=[0.5, 0.35, 0.15])
     # body: lognormal hours; one job in twelve is a long one (Pareto-like tail)
     hours = rng.lognormal(np.log(4.0), 0.55, n)
     long_job = rng.random(n) < 1 / 12
     hours[long_job] = 8.0 * (1.0 + rng.pareto(2.5, long_job.sum()))
     rate = rng.gamma(20.0, 4.2, n)  # EUR per crew-hour, around 84
-    return pd.DataFrame({
-        "job_id": np.arange(1, n + 1),
-        "district": district,
-        "material": material,
-        "crew_size": crew,
-        "hours": np.round(hours, 3),
-        "cost_per_crew_hour": np.round(rate, 2),
-        "reported_lat": np.round(rng.uniform(51.2, 51.9, n), 6),
-        "reported_lon": np.round(rng.uniform(4.1, 5.3, n), 6),
-    })
+    return pd.DataFrame(
+        {
+            "job_id": np.arange(1, n + 1),
+            "district": district,
+            "material": material,
+            "crew_size": crew,
+            "hours": np.round(hours, 3),
+            "cost_per_crew_hour": np.round(rate, 2),
+            "reported_lat": np.round(rng.uniform(51.2, 51.9, n), 6),
+            "reported_lon": np.round(rng.uniform(4.1, 5.3, n), 6),
+        }
+    )
 
 
 def make_breaks(rng: np.random.Generator, winters: int = 30, days: int = 120) -> pd.DataFrame:
@@ -58,15 +61,17 @@ def make_breaks(rng: np.random.Generator, winters: int = 30, days: int = 120) ->
     rows = n_days * len(DISTRICTS)
     day_frost = np.repeat(frost, len(DISTRICTS))
     lam = np.exp(-0.9 - 0.12 * day_frost) * rng.gamma(4.0, 0.25, rows)
-    return pd.DataFrame({
-        "winter": np.repeat(np.arange(1996, 1996 + winters), days * len(DISTRICTS)),
-        "day": np.tile(np.repeat(np.arange(1, days + 1), len(DISTRICTS)), winters),
-        "district": np.tile(DISTRICTS, n_days),
-        "min_temp_c": np.round(day_frost, 4),
-        "breaks": rng.poisson(lam),
-        "network_pressure_bar": rng.normal(4.2, 0.3, rows),
-        "night_flow_m3h": rng.gamma(9.0, 14.0, rows),
-    })
+    return pd.DataFrame(
+        {
+            "winter": np.repeat(np.arange(1996, 1996 + winters), days * len(DISTRICTS)),
+            "day": np.tile(np.repeat(np.arange(1, days + 1), len(DISTRICTS)), winters),
+            "district": np.tile(DISTRICTS, n_days),
+            "min_temp_c": np.round(day_frost, 4),
+            "breaks": rng.poisson(lam),
+            "network_pressure_bar": rng.normal(4.2, 0.3, rows),
+            "night_flow_m3h": rng.gamma(9.0, 14.0, rows),
+        }
+    )
 
 
 KNOTS = """\

@@ -19,8 +19,6 @@ import samplewright.workflow as _sw
 SW = _sw.register(
     _sw.Plan(config.get("samplewright", config), checkpoints=checkpoints)
 )
-SW_LOGS = SW.store + "/logs"
-SW_BENCH = SW.store + "/benchmarks"
 
 
 checkpoint sw_fingerprint:
@@ -28,14 +26,14 @@ checkpoint sw_fingerprint:
     input:
         lambda wc: SW.datasets[wc.dataset]["path"],
     output:
-        SW.store + "/produced/{dataset}.json",
+        SW.path("produced/{dataset}.json"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
     params:
         snapshot_version=SW.snapshot_version,
         args=lambda wc: SW.snapshot_args(wc.dataset),
     log:
-        SW_LOGS + "/fingerprint/{dataset}.log",
+        SW.path("logs/fingerprint/{dataset}.log"),
     shell:
         "samplewright fingerprint {input:q} {params.args} --json-out {output:q}"
         " > {log:q} 2>&1"
@@ -46,7 +44,7 @@ rule sw_snapshot:
     input:
         lambda wc: ancient(SW.datasets[wc.dataset]["path"]),
     output:
-        SW.store + "/columns/{dataset}/{fp}.parquet",
+        SW.path("columns/{dataset}/{fp}.parquet"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
         fp=_sw.KEY_PATTERN,
@@ -54,7 +52,7 @@ rule sw_snapshot:
         snapshot_version=SW.snapshot_version,
         args=lambda wc: SW.snapshot_args(wc.dataset),
     log:
-        SW_LOGS + "/snapshot/{dataset}/{fp}.log",
+        SW.path("logs/snapshot/{dataset}/{fp}.log"),
     resources:
         mem_mb=1000,
         runtime=10,
@@ -68,7 +66,7 @@ rule sw_fit:
     input:
         lambda wc: ancient(SW.snapshot_path(wc.dataset)),
     output:
-        SW.store + "/samplers/{dataset}/{label}/{key}.parquet",
+        SW.path("samplers/{dataset}/{label}/{key}.parquet"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
         label=_sw.LABEL_PATTERN,
@@ -78,9 +76,9 @@ rule sw_fit:
         args=lambda wc: SW.fit_args(wc.dataset, wc.label),
         fingerprint=lambda wc: SW.fingerprint(wc.dataset),
     log:
-        SW_LOGS + "/fit/{dataset}/{label}/{key}.log",
+        SW.path("logs/fit/{dataset}/{label}/{key}.log"),
     benchmark:
-        SW_BENCH + "/fit/{dataset}/{label}/{key}.tsv"
+        SW.path("benchmarks/fit/{dataset}/{label}/{key}.tsv")
     threads: 1
     resources:
         mem_mb=2000,
@@ -95,14 +93,14 @@ rule sw_knots:
     input:
         lambda wc: ancient(SW.datasets[wc.dataset]["knots"]),
     output:
-        SW.store + "/samplers/{dataset}/knots/{key}.parquet",
+        SW.path("samplers/{dataset}/knots/{key}.parquet"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
         key=_sw.KEY_PATTERN,
     params:
         results_version=SW.results_version,
     log:
-        SW_LOGS + "/knots/{dataset}/{key}.log",
+        SW.path("logs/knots/{dataset}/{key}.log"),
     shell:
         "samplewright knots --file {input:q} --key {wildcards.key}"
         " --out {output:q} > {log:q} 2>&1"
@@ -116,7 +114,7 @@ rule sw_select:
     input:
         lambda wc: [ancient(p) for p in SW.candidate_paths(wc.dataset)],
     output:
-        SW.store + "/selected/{dataset}/{key}.parquet",
+        SW.path("selected/{dataset}/{key}.parquet"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
         key=_sw.KEY_PATTERN,
@@ -124,7 +122,7 @@ rule sw_select:
         results_version=SW.results_version,
         rule=lambda wc: SW.select_rule(wc.dataset),
     log:
-        SW_LOGS + "/select/{dataset}/{key}.log",
+        SW.path("logs/select/{dataset}/{key}.log"),
     shell:
         "samplewright select {input:q} --by {params.rule} --key {wildcards.key}"
         " --out {output:q} > {log:q} 2>&1"
@@ -135,7 +133,7 @@ rule sw_draw:
     input:
         lambda wc: ancient(SW.selected_path(wc.dataset)),
     output:
-        SW.store + "/draws/{dataset}/{key}.parquet",
+        SW.path("draws/{dataset}/{key}.parquet"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
         key=_sw.KEY_PATTERN,
@@ -144,7 +142,7 @@ rule sw_draw:
         n=lambda wc: SW.datasets[wc.dataset]["draws"],
         seed=SW.root_seed,
     log:
-        SW_LOGS + "/draw/{dataset}/{key}.log",
+        SW.path("logs/draw/{dataset}/{key}.log"),
     shell:
         "samplewright draw {input:q} -n {params.n} --seed {params.seed}"
         " --stream {wildcards.dataset} --stream draws --out {output:q} > {log:q} 2>&1"
@@ -156,14 +154,15 @@ rule sw_check:
         data=lambda wc: ancient(SW.snapshot_path(wc.dataset)),
         candidates=lambda wc: [ancient(p) for p in SW.candidate_paths(wc.dataset)],
     output:
-        SW.store + "/checks/{dataset}/{key}.json",
+        json=SW.path("checks/{dataset}/{key}.json"),
+        md=SW.path("checks/{dataset}/{key}.md"),
     wildcard_constraints:
         dataset=SW.dataset_pattern(),
         key=_sw.KEY_PATTERN,
     params:
         results_version=SW.results_version,
     log:
-        SW_LOGS + "/check/{dataset}/{key}.log",
+        SW.path("logs/check/{dataset}/{key}.log"),
     shell:
         "samplewright check {input.data:q} {input.candidates:q}"
-        " --dataset {wildcards.dataset} --out {output:q} > {log:q} 2>&1"
+        " --dataset {wildcards.dataset} --out {output.json:q} > {log:q} 2>&1"

@@ -35,7 +35,8 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
     hours = repair.draw(n_jobs, rng=sw.stream_rng(seed, "repair_hours"))
     rate = cost.draw(n_jobs, rng=sw.stream_rng(seed, "crew_hour_cost"))
     needs_part = sw.stream_rng(seed, "needs_part").random(n_jobs) < float(
-        cfg["share_needing_spare_part"])
+        cfg["share_needing_spare_part"]
+    )
     part_wait = np.where(needs_part, wait.draw(n_jobs, rng=sw.stream_rng(seed, "part_wait")), 0.0)
     restore = hours + part_wait
 
@@ -51,13 +52,21 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
     return {
         "scenario": "Northvale Water winter repair crews (invented data)",
         "n_seasons": n_seasons,
-        "samplers": {name: sw.read_metadata(path)["content_hash"]
-                     for name, path in (("repair_hours", args.repair),
-                                        ("crew_hour_cost", args.cost),
-                                        ("daily_breaks", args.breaks),
-                                        ("spare_part_wait", args.wait))},
-        "chosen_methods": {"repair_hours": repair.method, "crew_hour_cost": cost.method,
-                           "daily_breaks": breaks.method, "spare_part_wait": wait.method},
+        "samplers": {
+            name: sw.read_metadata(path)["content_hash"]
+            for name, path in (
+                ("repair_hours", args.repair),
+                ("crew_hour_cost", args.cost),
+                ("daily_breaks", args.breaks),
+                ("spare_part_wait", args.wait),
+            )
+        },
+        "chosen_methods": {
+            "repair_hours": repair.method,
+            "crew_hour_cost": cost.method,
+            "daily_breaks": breaks.method,
+            "spare_part_wait": wait.method,
+        },
         "breaks_per_season_mean": float(per_day.sum(axis=1).mean()),
         "crew_hour_capacity_per_day": capacity,
         "daily_demand_p99_crew_hours": float(np.quantile(demand, 0.99)),
@@ -69,8 +78,10 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
         "prob_restore_over_48h": float(np.mean(restore > 48.0)),
         "season_cost_eur": {f"p{round(p * 100)}": float(v) for p, v in zip(q, cost_q, strict=True)},
         "season_cost_expected_shortfall_99_eur": float(tail.mean()),
-        "caution": ("Invented data; a fitted distribution is a model. Check inputs and tails and "
-                    "defer to local codes and licensed practice before using such figures."),
+        "caution": (
+            "Invented data; a fitted distribution is a model. Check inputs and tails and "
+            "defer to local codes and licensed practice before using such figures."
+        ),
         "_season_cost": season_cost,
         "_overload_days": overload_days,
     }
@@ -91,8 +102,11 @@ def plot(result: dict, path: str) -> None:
     a.set(xlabel="season repair cost (million EUR)", ylabel="seasons", title="Season cost")
     a.legend()
     b.hist(over, bins=np.arange(over.max() + 2) - 0.5, color="#b5654a")
-    b.set(xlabel="days with crew-hour demand above capacity", ylabel="seasons",
-          title="Overload days per season")
+    b.set(
+        xlabel="days with crew-hour demand above capacity",
+        ylabel="seasons",
+        title="Overload days per season",
+    )
     fig.suptitle("Northvale Water (invented data): simulated winters")
     fig.tight_layout()
     fig.savefig(path, dpi=110)

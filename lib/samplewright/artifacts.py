@@ -133,8 +133,9 @@ def write_sampler(
     meta["record_hash"] = _record_hash(payload, meta)
     table = pa.table({k: pa.array(np.asarray(v, dtype=np.float64)) for k, v in payload.items()})
     table = table.replace_schema_metadata({METADATA_KEY: _canonical_json(meta)})
-    atomic_write(path, lambda tmp: pq.write_table(table, tmp, use_dictionary=False,
-                                                  compression="zstd"))
+    atomic_write(
+        path, lambda tmp: pq.write_table(table, tmp, use_dictionary=False, compression="zstd")
+    )
     return meta
 
 

@@ -64,8 +64,15 @@ def _data_section(data: Any, n_obs: int) -> dict[str, Any]:
 
 
 def cmd_fingerprint(args: argparse.Namespace) -> int:
-    fp = fingerprint_file(args.data, args.column, weights=args.weights, censor=args.censor,
-                          missing=args.missing, infinite=args.infinite, cache_dir=args.cache_dir)
+    fp = fingerprint_file(
+        args.data,
+        args.column,
+        weights=args.weights,
+        censor=args.censor,
+        missing=args.missing,
+        infinite=args.infinite,
+        cache_dir=args.cache_dir,
+    )
     if args.json_out:
         doc = json.dumps({"fingerprint": fp, "source": str(args.data), "column": args.column})
         atomic_write(Path(args.json_out), lambda tmp: Path(tmp).write_text(doc + "\n"))
@@ -86,8 +93,14 @@ def cmd_snapshot(args: argparse.Namespace) -> int:
     from .intake import read_column
     from .snapshots import write_snapshot
 
-    data = read_column(args.data, args.column, weights=args.weights, censor=args.censor,
-                       missing=args.missing, infinite=args.infinite)
+    data = read_column(
+        args.data,
+        args.column,
+        weights=args.weights,
+        censor=args.censor,
+        missing=args.missing,
+        infinite=args.infinite,
+    )
     fp = fingerprint_column(data)
     _check_expected(f"column {args.column!r} in {args.data}", fp, args.expect_fingerprint)
     write_snapshot(data, args.out)
@@ -100,29 +113,46 @@ def cmd_fit(args: argparse.Namespace) -> int:
 
     options = dict(_parse_option(o) for o in args.option or [])
     if args.method not in known_methods():
-        raise MethodError(f"--method: unknown method {args.method!r}; expected one of: "
-                          f"{', '.join(known_methods())}")
-    data, snap = read_data(args.data, args.column, weights=args.weights, censor=args.censor,
-                           missing=args.missing, infinite=args.infinite,
-                           min_rows=_method_minimum(args.method))
+        raise MethodError(
+            f"--method: unknown method {args.method!r}; expected one of: "
+            f"{', '.join(known_methods())}"
+        )
+    data, snap = read_data(
+        args.data,
+        args.column,
+        weights=args.weights,
+        censor=args.censor,
+        missing=args.missing,
+        infinite=args.infinite,
+        min_rows=_method_minimum(args.method),
+    )
     fp = fingerprint_column(data)
     _check_expected(str(args.data), fp, args.expect_fingerprint)
     try:
-        sampler = fit(data.values, args.method, weights=data.weights, censored=data.censored,
-                      **options)
+        sampler = fit(
+            data.values, args.method, weights=data.weights, censored=data.censored, **options
+        )
     except SamplewrightError as exc:
         where = snap["source"] if snap else args.data
         col = snap["column"] if snap else args.column
         raise type(exc)(f"column {col!r} in {where}: {exc}") from None
-    origin = snap or {"source": str(args.data), "column": args.column,
-                      "weight_column": args.weights, "censor_column": args.censor}
+    origin = snap or {
+        "source": str(args.data),
+        "column": args.column,
+        "weight_column": args.weights,
+        "censor_column": args.censor,
+    }
     data_section = _data_section(data, data.n)
     if snap:
         data_section["n_rows_read"] = snap["n_rows_read"]
         data_section["dropped"] = snap["dropped"]
     diagnostics = getattr(sampler, "diagnostics", {}) or {}
     write_sampler(
-        sampler, args.out, fingerprint=fp, key=args.key, data=data_section,
+        sampler,
+        args.out,
+        fingerprint=fp,
+        key=args.key,
+        data=data_section,
         diagnostics=diagnostics,
         provenance={
             "source": origin["source"],
@@ -142,9 +172,14 @@ def cmd_knots(args: argparse.Namespace) -> int:
         raise MethodError("knots: give exactly one of --file or --points")
     sampler = read_knots(args.file) if args.file else parse_knots_text(args.points)
     fp = fingerprint_column_like(sampler)
-    write_sampler(sampler, args.out, fingerprint=fp, key=args.key,
-                  data={"n_obs": 0, "n_knots": int(sampler.x.size)},
-                  provenance={"source": str(args.file) if args.file else "--points"})
+    write_sampler(
+        sampler,
+        args.out,
+        fingerprint=fp,
+        key=args.key,
+        data={"n_obs": 0, "n_knots": int(sampler.x.size)},
+        provenance={"source": str(args.file) if args.file else "--points"},
+    )
     print(f"{args.out}: {_one_line(sampler)}")
     return 0
 
@@ -175,11 +210,19 @@ def cmd_draw(args: argparse.Namespace) -> int:
         import pyarrow.parquet as pq
 
         meta = read_metadata(args.artifact, verify=False)
-        table = pa.table({"value": values}).replace_schema_metadata({
-            b"samplewright-draws": json.dumps({
-                "artifact": str(args.artifact), "content_hash": meta["content_hash"],
-                "seed": args.seed, "stream": args.stream or ["draws"], "n": args.n,
-            }).encode()})
+        table = pa.table({"value": values}).replace_schema_metadata(
+            {
+                b"samplewright-draws": json.dumps(
+                    {
+                        "artifact": str(args.artifact),
+                        "content_hash": meta["content_hash"],
+                        "seed": args.seed,
+                        "stream": args.stream or ["draws"],
+                        "n": args.n,
+                    }
+                ).encode()
+            }
+        )
         atomic_write(out, lambda tmp: pq.write_table(table, tmp, use_dictionary=False))
     print(f"{out}: {args.n} draws, mean {np.mean(values) if args.n else float('nan'):.6g}")
     return 0
@@ -187,8 +230,9 @@ def cmd_draw(args: argparse.Namespace) -> int:
 
 def _one_line(sampler: Sampler) -> str:
     lo, hi = sampler.support
-    params = ", ".join(f"{k}={v:.6g}" if isinstance(v, float) else f"{k}={v}"
-                       for k, v in sampler.params.items())
+    params = ", ".join(
+        f"{k}={v:.6g}" if isinstance(v, float) else f"{k}={v}" for k, v in sampler.params.items()
+    )
     text = f"{sampler.method} ({params}); support [{lo:.6g}, {hi:.6g}]; mean {sampler.mean:.6g}"
     ll = getattr(sampler, "loglik", None)
     if ll is not None:
@@ -246,10 +290,18 @@ def _add_data_args(p: argparse.ArgumentParser, *, column_required: bool = True) 
     p.add_argument("--column", "-c", required=column_required, help="name of the value column")
     p.add_argument("--weights", help="name of a column of positive (frequency) weights")
     p.add_argument("--censor", help="name of a 0/1 column; 1 = value is right-censored")
-    p.add_argument("--missing", choices=["error", "drop"], default="error",
-                   help="what to do with missing values (default: error)")
-    p.add_argument("--infinite", choices=["error", "drop"], default="error",
-                   help="what to do with infinite values (default: error)")
+    p.add_argument(
+        "--missing",
+        choices=["error", "drop"],
+        default="error",
+        help="what to do with missing values (default: error)",
+    )
+    p.add_argument(
+        "--infinite",
+        choices=["error", "drop"],
+        default="error",
+        help="what to do with infinite values (default: error)",
+    )
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -262,10 +314,19 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("fit", help="fit a sampler to a data column and write an artifact")
     _add_data_args(p, column_required=False)
-    p.add_argument("--method", "-m", required=True,
-                   help="empirical, interpolated, or a family (normal, lognormal, gamma, ...)")
-    p.add_argument("--option", "-o", action="append", metavar="KEY=VALUE",
-                   help="method option, repeatable (values parsed as JSON, e.g. loc=0.5)")
+    p.add_argument(
+        "--method",
+        "-m",
+        required=True,
+        help="empirical, interpolated, or a family (normal, lognormal, gamma, ...)",
+    )
+    p.add_argument(
+        "--option",
+        "-o",
+        action="append",
+        metavar="KEY=VALUE",
+        help="method option, repeatable (values parsed as JSON, e.g. loc=0.5)",
+    )
     p.add_argument("--out", required=True, help="artifact path (.parquet)")
     p.add_argument("--key", help="content key to record (set by the workflow rules)")
     p.add_argument("--expect-fingerprint", help="fail unless the data has this fingerprint")
@@ -282,8 +343,11 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("artifact")
     p.add_argument("-n", type=int, required=True, help="number of draws")
     p.add_argument("--seed", type=int, required=True, help="root seed (non-negative int)")
-    p.add_argument("--stream", action="append",
-                   help="stream name under the root seed, repeatable (default: draws)")
+    p.add_argument(
+        "--stream",
+        action="append",
+        help="stream name under the root seed, repeatable (default: draws)",
+    )
     p.add_argument("--out", required=True, help="output file: .parquet or .csv (column 'value')")
     p.set_defaults(func=cmd_draw)
 

@@ -24,7 +24,13 @@ import numpy as np
 
 from .intake import ColumnData, Policy, read_column
 
-__all__ = ["FINGERPRINT_VERSION", "FingerprintCache", "fingerprint_arrays", "fingerprint_column", "fingerprint_file"]
+__all__ = [
+    "FINGERPRINT_VERSION",
+    "FingerprintCache",
+    "fingerprint_arrays",
+    "fingerprint_column",
+    "fingerprint_file",
+]
 
 FINGERPRINT_VERSION = 1
 CACHE_NAME = "fingerprints.json"
@@ -114,8 +120,9 @@ class FingerprintCache:
         hit = self.entries.get(entry_key)
         if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
             return str(hit["fingerprint"])
-        data = read_column(path, column, weights=weights, censor=censor, missing=missing,
-                           infinite=infinite)
+        data = read_column(
+            path, column, weights=weights, censor=censor, missing=missing, infinite=infinite
+        )
         fp = fingerprint_column(data)
         if _stat_key(path) == stat:  # unchanged while we read it
             self.entries[entry_key] = {**stat, "fingerprint": fp}
@@ -146,7 +153,8 @@ def fingerprint_file(
     Raises the same one-line :class:`~samplewright.errors.InputDataError` as reading would.
     """
     cache = FingerprintCache(cache_dir)
-    fp = cache.fingerprint(path, column, weights=weights, censor=censor, missing=missing,
-                           infinite=infinite)
+    fp = cache.fingerprint(
+        path, column, weights=weights, censor=censor, missing=missing, infinite=infinite
+    )
     cache.save()
     return fp

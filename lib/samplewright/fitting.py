@@ -55,8 +55,9 @@ def canonical_method(method: str, options: Mapping[str, Any] | None = None) -> s
     >>> canonical_method("gamma", {"loc": 0})
     '{"method":"gamma","options":{"loc":0}}'
     """
-    return json.dumps({"method": method, "options": dict(options or {})}, sort_keys=True,
-                      separators=(",", ":"))
+    return json.dumps(
+        {"method": method, "options": dict(options or {})}, sort_keys=True, separators=(",", ":")
+    )
 
 
 def _interpolated(x: np.ndarray) -> PiecewiseSampler:
@@ -104,8 +105,9 @@ def fit(
     if c is not None and c.any():
         if method in FAMILIES:
             out = fit_family(method, x, w, censored=c, **options)
-            return ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic,
-                                     bic=out.bic)
+            return ParametricSampler(
+                method, out.params, loglik=out.loglik, aic=out.aic, bic=out.bic
+            )
         raise MethodError(
             f"method {method!r} does not handle censored data; use a parametric family "
             "or 'kaplan_meier'"
@@ -125,9 +127,7 @@ def fit(
     if method in FAMILIES:
         out = fit_family(method, x, w, **options)
         return ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic, bic=out.bic)
-    raise MethodError(
-        f"unknown method {method!r}; expected one of: {', '.join(known_methods())}"
-    )
+    raise MethodError(f"unknown method {method!r}; expected one of: {', '.join(known_methods())}")
 
 
 def read_knots(path: str | Path) -> PiecewiseSampler:
@@ -148,12 +148,14 @@ def read_knots(path: str | Path) -> PiecewiseSampler:
             raise KnotsError(f"{path}: not valid YAML ({str(exc).splitlines()[0]})") from None
         if isinstance(doc, dict) and set(doc) >= {"x", "p"}:
             x, p = doc["x"], doc["p"]
-        elif isinstance(doc, list) and all(isinstance(r, list | tuple) and len(r) == 2
-                                           for r in doc):
+        elif isinstance(doc, list) and all(
+            isinstance(r, list | tuple) and len(r) == 2 for r in doc
+        ):
             x, p = [r[0] for r in doc], [r[1] for r in doc]
         else:
-            raise KnotsError(f"{path}: expected a mapping with keys x and p, or a list of "
-                             "[x, p] pairs")
+            raise KnotsError(
+                f"{path}: expected a mapping with keys x and p, or a list of [x, p] pairs"
+            )
     elif suffix in (".csv", ".tsv", ".tab"):
         from .intake import _to_float, read_raw_columns
 

@@ -41,8 +41,10 @@ def format_show(path: Any, sampler: Sampler, meta: dict[str, Any]) -> str:
             lines.append(f"  {k:<12} {s[k]:.6g}" if isinstance(s[k], float) else f"  {k} {s[k]}")
     data = meta.get("data") or {}
     if data:
-        lines.append(f"  data         n={data.get('n_obs')} read={data.get('n_rows_read')} "
-                     f"dropped={data.get('dropped') or {}}")
+        lines.append(
+            f"  data         n={data.get('n_obs')} read={data.get('n_rows_read')} "
+            f"dropped={data.get('dropped') or {}}"
+        )
     sel = (meta.get("diagnostics") or {}).get("selection")
     if sel:
         lines.append(f"  chosen by    {sel['rule']} among {len(sel['ranking'])}:")
@@ -83,23 +85,31 @@ def check_candidates(x: np.ndarray, samplers: Sequence[Sampler]) -> list[dict[st
     for s in samplers:
         q = np.asarray(s.quantile(np.asarray(_PROBS)), dtype=np.float64)
         lo, hi = s.support
-        rows.append({
-            "method": s.method,
-            "ks": _ks_distance(s, x),
-            "mean": float(s.mean), "data_mean": float(np.mean(x)),
-            "sd": float(s.sd), "data_sd": float(np.std(x)),
-            "quantiles": {f"p{round(p * 100)}": float(v) for p, v in zip(_PROBS, q, strict=True)},
-            "data_quantiles": {f"p{round(p * 100)}": float(v)
-                               for p, v in zip(_PROBS, data_q, strict=True)},
-            "can_exceed_data_max": bool(hi > float(np.max(x))),
-            "loglik": getattr(s, "loglik", None),
-            "aic": getattr(s, "aic", None),
-        })
+        rows.append(
+            {
+                "method": s.method,
+                "ks": _ks_distance(s, x),
+                "mean": float(s.mean),
+                "data_mean": float(np.mean(x)),
+                "sd": float(s.sd),
+                "data_sd": float(np.std(x)),
+                "quantiles": {
+                    f"p{round(p * 100)}": float(v) for p, v in zip(_PROBS, q, strict=True)
+                },
+                "data_quantiles": {
+                    f"p{round(p * 100)}": float(v) for p, v in zip(_PROBS, data_q, strict=True)
+                },
+                "can_exceed_data_max": bool(hi > float(np.max(x))),
+                "loglik": getattr(s, "loglik", None),
+                "aic": getattr(s, "aic", None),
+            }
+        )
     return rows
 
 
-def write_check(data_path: str | Path, candidates: Sequence[str | Path], *, out: str | Path,
-                dataset: str = "") -> dict[str, Any]:
+def write_check(
+    data_path: str | Path, candidates: Sequence[str | Path], *, out: str | Path, dataset: str = ""
+) -> dict[str, Any]:
     """Write the check summary as JSON to ``out`` and as Markdown beside it (``.md``)."""
     from .snapshots import read_data
 
@@ -109,14 +119,21 @@ def write_check(data_path: str | Path, candidates: Sequence[str | Path], *, out:
     doc = {"dataset": dataset, "n_obs": data.n, "candidates": rows, "caution": CAUTION}
     out = Path(out)
     atomic_write(out, lambda tmp: Path(tmp).write_text(json.dumps(doc, indent=2) + "\n"))
-    md = [f"# Check: {dataset or data_path}", "", f"{data.n} observations.", "",
-          "| method | KS distance | mean (data) | p99 (data) | beyond max? | AIC |",
-          "|---|---|---|---|---|---|"]
+    md = [
+        f"# Check: {dataset or data_path}",
+        "",
+        f"{data.n} observations.",
+        "",
+        "| method | KS distance | mean (data) | p99 (data) | beyond max? | AIC |",
+        "|---|---|---|---|---|---|",
+    ]
     for r in rows:
         aic = f"{r['aic']:.2f}" if r["aic"] is not None else "-"
-        md.append(f"| {r['method']} | {r['ks']:.4f} | {r['mean']:.4g} ({r['data_mean']:.4g}) | "
-                  f"{r['quantiles']['p99']:.4g} ({r['data_quantiles']['p99']:.4g}) | "
-                  f"{'yes' if r['can_exceed_data_max'] else 'no'} | {aic} |")
+        md.append(
+            f"| {r['method']} | {r['ks']:.4f} | {r['mean']:.4g} ({r['data_mean']:.4g}) | "
+            f"{r['quantiles']['p99']:.4g} ({r['data_quantiles']['p99']:.4g}) | "
+            f"{'yes' if r['can_exceed_data_max'] else 'no'} | {aic} |"
+        )
     md += ["", f"_{CAUTION}_", ""]
     atomic_write(out.with_suffix(".md"), lambda tmp: Path(tmp).write_text("\n".join(md)))
     return doc

@@ -147,8 +147,11 @@ class EmpiricalSampler(Sampler):
         self.params = {"n": int(x.size), "weighted": weights is not None}
 
     def _probs(self) -> np.ndarray:
-        return self.weights if self.weights is not None else np.full(self.values.size,
-                                                                     1.0 / self.values.size)
+        return (
+            self.weights
+            if self.weights is not None
+            else np.full(self.values.size, 1.0 / self.values.size)
+        )
 
     def cdf(self, x: Any) -> np.ndarray:
         idx = np.searchsorted(self.values, np.asarray(x, dtype=np.float64), side="right")
@@ -370,9 +373,16 @@ class ParametricSampler(Sampler):
 
     kind = "parametric"
 
-    def __init__(self, family: str, params: dict[str, float], *, loglik: float | None = None,
-                 aic: float | None = None, bic: float | None = None, method: str | None = None,
-                 ) -> None:
+    def __init__(
+        self,
+        family: str,
+        params: dict[str, float],
+        *,
+        loglik: float | None = None,
+        aic: float | None = None,
+        bic: float | None = None,
+        method: str | None = None,
+    ) -> None:
         self.family = get_family(family)
         missing = set(self.family.param_names) - set(params)
         if missing:
@@ -422,9 +432,14 @@ class ParametricSampler(Sampler):
 
     @classmethod
     def from_payload(cls, payload: dict[str, np.ndarray], described: dict[str, Any]) -> Sampler:
-        return cls(described["family"], described["params"], loglik=described.get("loglik"),
-                   aic=described.get("aic"), bic=described.get("bic"),
-                   method=described["method"])
+        return cls(
+            described["family"],
+            described["params"],
+            loglik=described.get("loglik"),
+            aic=described.get("aic"),
+            bic=described.get("bic"),
+            method=described["method"],
+        )
 
     def describe(self) -> dict[str, Any]:
         out = super().describe()

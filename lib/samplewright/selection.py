@@ -29,8 +29,9 @@ SELECTION_RULES = ("aic", "bic", "first")
 def rank_loaded(samplers: Sequence[Any], by: str) -> list[int]:
     """Indices of ``samplers`` from best to worst under rule ``by``."""
     if by not in SELECTION_RULES:
-        raise MethodError(f"selection rule {by!r} unknown; expected one of: "
-                          f"{', '.join(SELECTION_RULES)}")
+        raise MethodError(
+            f"selection rule {by!r} unknown; expected one of: {', '.join(SELECTION_RULES)}"
+        )
     order = list(range(len(samplers)))
     if by == "first":
         return order
@@ -44,8 +45,9 @@ def rank_loaded(samplers: Sequence[Any], by: str) -> list[int]:
     return sorted(order, key=score)
 
 
-def select_artifacts(candidates: Sequence[str | Path], *, by: str, key: str | None,
-                     out: str | Path) -> str:
+def select_artifacts(
+    candidates: Sequence[str | Path], *, by: str, key: str | None, out: str | Path
+) -> str:
     """Select among candidate artifacts and write the winner to ``out``; return its method."""
     if not candidates:
         raise MethodError("select: at least one candidate artifact is needed")
@@ -56,21 +58,37 @@ def select_artifacts(candidates: Sequence[str | Path], *, by: str, key: str | No
     table = []
     for rank, i in enumerate(ranking, start=1):
         m = loaded[i].metadata  # type: ignore[attr-defined]
-        table.append({
-            "rank": rank,
-            "method": m["sampler"]["method"],
-            "key": m.get("key"),
-            "content_hash": m["content_hash"],
-            "aic": m["sampler"].get("aic"),
-            "bic": m["sampler"].get("bic"),
-            "loglik": m["sampler"].get("loglik"),
-        })
+        table.append(
+            {
+                "rank": rank,
+                "method": m["sampler"]["method"],
+                "key": m.get("key"),
+                "content_hash": m["content_hash"],
+                "aic": m["sampler"].get("aic"),
+                "bic": m["sampler"].get("bic"),
+                "loglik": m["sampler"].get("loglik"),
+            }
+        )
     diagnostics = dict(meta.get("diagnostics") or {})
-    diagnostics["selection"] = {"rule": by, "chosen": meta["sampler"]["method"],
-                                "chosen_key": meta.get("key"), "ranking": table}
-    provenance = {k: v for k, v in (meta.get("provenance") or {}).items()
-                  if k not in ("created_at", "versions")}
+    diagnostics["selection"] = {
+        "rule": by,
+        "chosen": meta["sampler"]["method"],
+        "chosen_key": meta.get("key"),
+        "ranking": table,
+    }
+    provenance = {
+        k: v
+        for k, v in (meta.get("provenance") or {}).items()
+        if k not in ("created_at", "versions")
+    }
     provenance["selected_from"] = str(candidates[ranking[0]])
-    write_sampler(best, out, fingerprint=meta.get("fingerprint"), key=key,
-                  data=meta.get("data"), diagnostics=diagnostics, provenance=provenance)
+    write_sampler(
+        best,
+        out,
+        fingerprint=meta.get("fingerprint"),
+        key=key,
+        data=meta.get("data"),
+        diagnostics=diagnostics,
+        provenance=provenance,
+    )
     return str(meta["sampler"]["method"])

@@ -75,11 +75,19 @@ def read_data(
     if info is None:
         if column is None:
             raise InputDataError(f"{path}: --column is required for a data file")
-        return read_column(path, column, weights=weights, censor=censor, missing=missing,
-                           infinite=infinite, min_rows=min_rows), None
+        return read_column(
+            path,
+            column,
+            weights=weights,
+            censor=censor,
+            missing=missing,
+            infinite=infinite,
+            min_rows=min_rows,
+        ), None
     names = pq.read_schema(path).names
     data = read_column(
-        path, "value",
+        path,
+        "value",
         weights="weight" if "weight" in names else None,
         censor="censor" if "censor" in names else None,
         min_rows=min_rows,

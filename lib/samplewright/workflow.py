@@ -96,8 +96,8 @@ def load_config(raw: Any) -> dict[str, Any]:
                 f"{where}: unknown key {extra[0]!r}"
                 + (f" (allowed: {', '.join(allowed)})" if allowed else "")
             )
-        if err.validator == "required":
-            raise ConfigError(f"{where}: {err.message}")
+        if err.validator == "minProperties" and list(err.absolute_path) == ["datasets"]:
+            raise ConfigError(f"{where}: at least one dataset is needed")
         raise ConfigError(f"{where}: {err.message}")
     cfg = json.loads(json.dumps(dict(raw)))  # deep copy, plain types
     top = schema["properties"]
@@ -141,7 +141,8 @@ def _method_specs(name: str, ds: Mapping[str, Any]) -> list[MethodSpec]:
         method = item["method"]
         if method not in known_methods():
             raise ConfigError(
-                f"{where}: unknown method {method!r} (expected one of: {', '.join(known_methods())})"
+                f"{where}: unknown method {method!r} "
+                f"(expected one of: {', '.join(known_methods())})"
             )
         options = dict(item.get("options") or {})
         if method in FAMILIES:
@@ -231,9 +232,13 @@ class Plan:
                 elif not ds["produced"]:
                     try:
                         self._fps[name] = cache.fingerprint(
-                            ds["path"], ds["column"], weights=ds["weights"],
-                            censor=ds["censor"], missing=ds["missing"],
-                            infinite=ds["infinite"])
+                            ds["path"],
+                            ds["column"],
+                            weights=ds["weights"],
+                            censor=ds["censor"],
+                            missing=ds["missing"],
+                            infinite=ds["infinite"],
+                        )
                     except InputDataError as exc:
                         raise ConfigError(f"{where}: {exc}") from None
         finally:
@@ -254,8 +259,10 @@ class Plan:
         if not self.is_produced(name):
             raise KeyError(name)
         if self.checkpoints is None:
-            raise ConfigError(f"samplewright.datasets.{name}: produced data needs the rules' "
-                              "checkpoint (load the samplewright rule file)")
+            raise ConfigError(
+                f"samplewright.datasets.{name}: produced data needs the rules' "
+                "checkpoint (load the samplewright rule file)"
+            )
         out = self.checkpoints.sw_fingerprint.get(dataset=name).output[0]
         return str(json.loads(Path(out).read_text())["fingerprint"])
 
@@ -266,8 +273,9 @@ class Plan:
         raise KeyError(f"{name}/{label}")
 
     def fit_key(self, name: str, label: str) -> str:
-        return _h("fit", self.fingerprint(name), self.spec(name, label).canonical,
-                  self.results_version)
+        return _h(
+            "fit", self.fingerprint(name), self.spec(name, label).canonical, self.results_version
+        )
 
     def candidates(self, name: str) -> list[MethodSpec]:
         """Candidates in selection order (a fixed label choice goes first)."""
@@ -290,6 +298,10 @@ class Plan:
         return _h("draws", self.select_key(name), n, self.root_seed, self.results_version)
 
     # -- paths ------------------------------------------------------------------------------
+
+    def path(self, relative: str) -> str:
+        """``relative`` inside the store folder (rule output, log and benchmark patterns)."""
+        return f"{self.store}/{relative}"
 
     def snapshot_path(self, name: str) -> str:
         return f"{self.store}/columns/{name}/{self.fingerprint(name)[:KEY_LEN]}.parquet"
@@ -421,7 +433,8 @@ def keyed(template: str, *datasets: str) -> str:
     """A content-addressed path for *your* downstream outputs.
 
     ``{key}`` in ``template`` is replaced by a key of the selected samplers of ``datasets``
-    (their select keys) and the template itself. Use it for a downstream rule's output (and in
+    (their select keys), so every output made from the same samplers shares one key. Use it for
+    a downstream rule's output (and in
     ``rule all``) so that reverting the data finds the earlier results again instead of
     recomputing them. Only for datasets known at parse time (not ``produced: true``).
 
@@ -434,10 +447,12 @@ def keyed(template: str, *datasets: str) -> str:
     for name in datasets:
         _dataset(plan, name)
         if plan.is_produced(name):
-            raise ConfigError(f"keyed: dataset {name!r} is produced by the workflow; its key is "
-                              "known only after the checkpoint")
+            raise ConfigError(
+                f"keyed: dataset {name!r} is produced by the workflow; its key is "
+                "known only after the checkpoint"
+            )
         keys.append([name, plan.select_key(name)])
-    return template.replace("{key}", _h("keyed", keys, template, plan.results_version))
+    return template.replace("{key}", _h("keyed", keys, plan.results_version))
 
 
 def targets() -> list[Any]:

@@ -51,13 +51,20 @@ def parse_jobs(text: str) -> set[tuple[str, str]]:
     return jobs
 
 
-def snakemake(workdir: Path, *args: str, env: dict[str, str] | None = None,
-              timeout: int = 600) -> Run:
+def snakemake(
+    workdir: Path, *args: str, env: dict[str, str] | None = None, timeout: int = 600
+) -> Run:
     full_env = dict(os.environ)
     full_env["PATH"] = f"{BIN}{os.pathsep}{full_env.get('PATH', '')}"
     full_env.update(env or {})
-    proc = subprocess.run([SNAKEMAKE, *BASE_ARGS, *args], cwd=workdir, env=full_env,
-                          capture_output=True, text=True, timeout=timeout)
+    proc = subprocess.run(
+        [SNAKEMAKE, *BASE_ARGS, *args],
+        cwd=workdir,
+        env=full_env,
+        capture_output=True,
+        text=True,
+        timeout=timeout,
+    )
     return Run(proc.returncode, proc.stdout + proc.stderr)
 
 

@@ -13,7 +13,7 @@ from .conftest import copy_example, dry, nothing_to_do, snakemake
 
 pytestmark = pytest.mark.pipeline
 
-MODULE_BLOCK = '''module samplewright:
+MODULE_BLOCK = """module samplewright:
     snakefile:
         samplewright.rules_path()
     config:
@@ -21,7 +21,7 @@ MODULE_BLOCK = '''module samplewright:
 
 
 use rule * from samplewright
-'''
+"""
 
 
 def _artifacts(work: Path) -> dict[str, str]:

@@ -20,8 +20,13 @@ def _export(path: Path, shift: float = 0.0) -> None:
     # Exponential-ish repair hours from numpy's generator; invented test input, not a reference.
     rng = np.random.default_rng(5)
     n = 120_000  # > 1 MB of CSV, beyond Snakemake's checksum shortcut
-    frame = pd.DataFrame({"hours": np.round(rng.gamma(2.0, 1.5, n), 6), "ok": rng.random(n) < 0.9,
-                          "note": rng.choice(["x", "y"], n)})
+    frame = pd.DataFrame(
+        {
+            "hours": np.round(rng.gamma(2.0, 1.5, n), 6),
+            "ok": rng.random(n) < 0.9,
+            "note": rng.choice(["x", "y"], n),
+        }
+    )
     frame["ok"] = frame["ok"].astype(int)
     frame.loc[0, "hours"] += shift
     frame.loc[0, "ok"] = 1
@@ -41,7 +46,7 @@ def produced(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 
 def test_produced_data_runs_and_then_plans_nothing(produced: Path) -> None:
-    """The first run fingerprints the ingested file by checkpoint and fits it; a rerun plans nothing."""
+    """The first run fingerprints the ingested file by checkpoint; a rerun plans nothing."""
     assert (produced / "results" / "report.txt").read_text().count("chosen by") == 1
     assert len(list((produced / "store" / "selected" / "clean_hours").glob("*.parquet"))) == 1
     assert nothing_to_do(snakemake(produced, "-n"))
@@ -63,7 +68,15 @@ def test_changed_content_refits_through_the_checkpoint(produced: Path) -> None:
     run = snakemake(produced)
     assert run.returncode == 0, run.out[-3000:]
     ran = {rule for rule, _ in run.jobs()}
-    assert {"ingest", "sw_fingerprint", "sw_snapshot", "sw_fit", "sw_select", "sw_draw",
-            "sw_check", "report"} <= ran
+    assert {
+        "ingest",
+        "sw_fingerprint",
+        "sw_snapshot",
+        "sw_fit",
+        "sw_select",
+        "sw_draw",
+        "sw_check",
+        "report",
+    } <= ran
     assert len(list((produced / "store" / "selected" / "clean_hours").glob("*.parquet"))) == 2
     assert nothing_to_do(snakemake(produced, "-n"))

@@ -32,8 +32,15 @@ def _dataset_chain(name: str) -> set[tuple[str, str]]:
     methods = cfg["samplewright"]["datasets"][name]["methods"]
     # one sw_fit job per method; the set keeps one (rule, dataset) pair
     assert methods
-    return {("sw_snapshot", name), ("sw_fit", name), ("sw_select", name), ("sw_check", name),
-            ("sw_draw", name), ("season_risk", ""), ("all", "")}
+    return {
+        ("sw_snapshot", name),
+        ("sw_fit", name),
+        ("sw_select", name),
+        ("sw_check", name),
+        ("sw_draw", name),
+        ("season_risk", ""),
+        ("all", ""),
+    }
 
 
 def _set_config(work: Path, edit) -> str:
@@ -46,7 +53,7 @@ def _set_config(work: Path, edit) -> str:
 
 
 def test_full_run_made_risk_outputs(pipeline: Path) -> None:
-    """A full run wrote the risk figures, the plot and every selected sampler; a rerun plans nothing."""
+    """A full run wrote risk figures, plot and every selected sampler; reruns plan nothing."""
     risk = list((pipeline / "results").glob("*/season_risk.json"))
     assert len(risk) == 1
     doc = json.loads(risk[0].read_text())
@@ -96,8 +103,10 @@ def test_csv_to_parquet_conversion_refits_nothing(pipeline: Path) -> None:
         (pipeline / "config.yaml").write_text(original)
         (pipeline / "data" / "repairs.parquet").unlink()
     # back on the CSV: again only the snapshot jobs (their input path changed back)
-    assert dry(pipeline).jobs() == {("sw_snapshot", "repair_hours"),
-                                    ("sw_snapshot", "crew_hour_cost")}
+    assert dry(pipeline).jobs() == {
+        ("sw_snapshot", "repair_hours"),
+        ("sw_snapshot", "crew_hour_cost"),
+    }
     assert snakemake(pipeline).returncode == 0
     assert nothing_to_do(dry(pipeline))
 
@@ -120,7 +129,7 @@ def test_changing_an_unused_column_plans_nothing(pipeline: Path, tmp_path: Path)
 def test_one_value_change_reruns_exactly_its_chain_and_revert_finds_old(
     pipeline: Path, tmp_path: Path
 ) -> None:
-    """Changing one value reruns only that dataset's chain and the risk step; reverting plans nothing."""
+    """One changed value reruns its dataset's chain and the risk step; a revert plans nothing."""
     path = pipeline / "data" / "breaks.parquet"
     backup = tmp_path / "breaks.parquet"
     shutil.copy2(path, backup)
@@ -137,7 +146,7 @@ def test_one_value_change_reruns_exactly_its_chain_and_revert_finds_old(
 
 
 def test_changing_one_method_option_reruns_only_affected(pipeline: Path) -> None:
-    """A new option on one candidate refits it alone; its dataset's selection and the risk step follow."""
+    """A new option on one candidate refits it alone; its selection, draws and risk step follow."""
 
     def shift(cfg: dict) -> None:
         methods = cfg["samplewright"]["datasets"]["crew_hour_cost"]["methods"]
@@ -146,9 +155,14 @@ def test_changing_one_method_option_reruns_only_affected(pipeline: Path) -> None
     original = _set_config(pipeline, shift)
     try:
         run = dry(pipeline)
-        assert run.jobs() == {("sw_fit", "crew_hour_cost"), ("sw_select", "crew_hour_cost"),
-                              ("sw_check", "crew_hour_cost"), ("sw_draw", "crew_hour_cost"),
-                              ("season_risk", ""), ("all", "")}
+        assert run.jobs() == {
+            ("sw_fit", "crew_hour_cost"),
+            ("sw_select", "crew_hour_cost"),
+            ("sw_check", "crew_hour_cost"),
+            ("sw_draw", "crew_hour_cost"),
+            ("season_risk", ""),
+            ("all", ""),
+        }
         assert run.out.count("rule sw_fit:") == 1
     finally:
         (pipeline / "config.yaml").write_text(original)
@@ -158,17 +172,27 @@ def test_changing_one_method_option_reruns_only_affected(pipeline: Path) -> None
 def test_bumping_results_version_reruns_from_fitting_down(pipeline: Path, tmp_path: Path) -> None:
     """A samplewright whose RESULTS_VERSION is bumped replans every fit and everything below."""
     lib = tmp_path / "lib"
-    shutil.copytree(ROOT / "lib" / "samplewright", lib / "samplewright",
-                    ignore=shutil.ignore_patterns("__pycache__"))
-    shutil.copytree(ROOT / "workflow_rules", lib / "samplewright" / "workflow_rules",
-                    ignore=shutil.ignore_patterns("__pycache__"))
+    shutil.copytree(
+        ROOT / "lib" / "samplewright",
+        lib / "samplewright",
+        ignore=shutil.ignore_patterns("__pycache__"),
+    )
+    shutil.copytree(
+        ROOT / "workflow_rules",
+        lib / "samplewright" / "workflow_rules",
+        ignore=shutil.ignore_patterns("__pycache__"),
+    )
     wf = lib / "samplewright" / "workflow.py"
     text = wf.read_text()
     assert "\nRESULTS_VERSION = " in text
     import samplewright.workflow as current
 
-    wf.write_text(text.replace(f"\nRESULTS_VERSION = {current.RESULTS_VERSION}\n",
-                               f"\nRESULTS_VERSION = {current.RESULTS_VERSION + 1}\n"))
+    wf.write_text(
+        text.replace(
+            f"\nRESULTS_VERSION = {current.RESULTS_VERSION}\n",
+            f"\nRESULTS_VERSION = {current.RESULTS_VERSION + 1}\n",
+        )
+    )
     run = dry(pipeline, env={"PYTHONPATH": str(lib)})
     expected = {("all", ""), ("season_risk", "")}
     for name in ALL_DATASETS:
@@ -185,37 +209,74 @@ def test_bumping_results_version_reruns_from_fitting_down(pipeline: Path, tmp_pa
 def test_reinstalling_same_version_plans_nothing(pipeline: Path, tmp_path: Path) -> None:
     """Installing the same samplewright again (fresh files, new mtimes) plans no job."""
     wheel_dir = tmp_path / "wheel"
-    subprocess.run([sys.executable, "-m", "pip", "wheel", "--no-deps", "--no-build-isolation",
-                    "-q", "-w", str(wheel_dir), str(ROOT)], check=True)
+    subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "pip",
+            "wheel",
+            "--no-deps",
+            "--no-build-isolation",
+            "-q",
+            "-w",
+            str(wheel_dir),
+            str(ROOT),
+        ],
+        check=True,
+    )
     wheel = next(wheel_dir.glob("samplewright-*.whl"))
     target = tmp_path / "site"
     for _ in range(2):  # install, then reinstall over it
-        subprocess.run([sys.executable, "-m", "pip", "install", "--no-deps", "--upgrade",
-                        "--force-reinstall", "-q", "--target", str(target), str(wheel)],
-                       check=True)
+        subprocess.run(
+            [
+                sys.executable,
+                "-m",
+                "pip",
+                "install",
+                "--no-deps",
+                "--upgrade",
+                "--force-reinstall",
+                "-q",
+                "--target",
+                str(target),
+                str(wheel),
+            ],
+            check=True,
+        )
         run = dry(pipeline, "--verbose", env={"PYTHONPATH": str(target)})
         assert nothing_to_do(run), run.out[-2000:]
     # the installed copy (not the source tree) was the one in use
-    probe = subprocess.run([sys.executable, "-c", "import samplewright; print(samplewright.rules_path())"],
-                           env={**os.environ, "PYTHONPATH": str(target)}, capture_output=True,
-                           text=True, check=True)
+    probe = subprocess.run(
+        [sys.executable, "-c", "import samplewright; print(samplewright.rules_path())"],
+        env={**os.environ, "PYTHONPATH": str(target)},
+        capture_output=True,
+        text=True,
+        check=True,
+    )
     assert probe.stdout.strip().startswith(str(target))
 
 
 @pytest.mark.parametrize(
     ("override", "expected"),
     [
-        ({"datasets": {"repair_hours": {"colum": "hours"}}},
-         "samplewright.datasets.repair_hours: unknown key 'colum'"),
-        ({"datasets": {"repair_hours": {"path": "data/missing.csv"}}},
-         "samplewright.datasets.repair_hours.path: file 'data/missing.csv' not found"),
-        ({"datasets": {"repair_hours": {"methods": ["lognormal", "gama"]}}},
-         "samplewright.datasets.repair_hours.methods[1]: unknown method 'gama'"),
+        (
+            {"datasets": {"repair_hours": {"colum": "hours"}}},
+            "samplewright.datasets.repair_hours: unknown key 'colum'",
+        ),
+        (
+            {"datasets": {"repair_hours": {"path": "data/missing.csv"}}},
+            "samplewright.datasets.repair_hours.path: file 'data/missing.csv' not found",
+        ),
+        (
+            {"datasets": {"repair_hours": {"methods": ["lognormal", "gama"]}}},
+            "samplewright.datasets.repair_hours.methods[1]: unknown method 'gama'",
+        ),
         ({"storage": "x"}, "samplewright: unknown key 'storage'"),
     ],
 )
-def test_bad_config_fails_before_any_job(pipeline: Path, tmp_path: Path, override: dict,
-                                         expected: str) -> None:
+def test_bad_config_fails_before_any_job(
+    pipeline: Path, tmp_path: Path, override: dict, expected: str
+) -> None:
     """A bad config stops Snakemake at parse time with a message naming the key; nothing runs."""
     bad = tmp_path / "bad.yaml"
     bad.write_text(yaml.safe_dump({"samplewright": override}))
@@ -225,3 +286,11 @@ def test_bad_config_fails_before_any_job(pipeline: Path, tmp_path: Path, overrid
     assert expected in run.out, run.out[-2000:]
     assert "Select jobs to execute" not in run.out
     assert sorted(p for p in (pipeline / "store").rglob("*") if p.is_file()) == before
+
+
+def test_lint_reports_only_the_accepted_warning(pipeline: Path) -> None:
+    """`snakemake --lint` finds nothing in the rules but the accepted per-rule environment hint."""
+    run = snakemake(pipeline, "--lint")
+    lints = [ln.strip() for ln in run.out.splitlines() if ln.strip().startswith("* ")]
+    assert lints, run.out[-2000:]
+    assert set(lints) == {"* Specify a conda environment or container for each rule.:"}, lints

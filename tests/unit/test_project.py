@@ -15,8 +15,11 @@ def _quick_start_commands() -> list[str]:
     section = text.split("## Quick start", 1)[1].split("\n## ", 1)[0]
     block = re.search(r"```(?:sh|bash|console)?\n(.*?)```", section, re.S)
     assert block, "README Quick start has no code block"
-    return [ln.strip() for ln in block.group(1).splitlines() if ln.strip() and
-            not ln.strip().startswith("#")]
+    return [
+        ln.strip()
+        for ln in block.group(1).splitlines()
+        if ln.strip() and not ln.strip().startswith("#")
+    ]
 
 
 def test_quick_start_has_exactly_two_commands() -> None:
