@@ -25,16 +25,21 @@ from .errors import (
 )
 from .fingerprint import fingerprint_arrays, fingerprint_file
 from .fitting import fit, known_methods, read_knots
+from .gof import GoodnessOfFitResult, goodness_of_fit
 from .intake import read_column
 from .randomness import make_rng, stream_rng
 from .samplers import EmpiricalSampler, ParametricSampler, PiecewiseSampler, Sampler, from_knots
 from .workflow import rules_path
+
+# Modules that register extra methods (and sampler kinds) when imported.
+from . import censoring, counts, model_choice  # noqa: E402, F401  isort: skip
 
 __all__ = [
     "ArtifactError",
     "ConfigError",
     "EmpiricalSampler",
     "FitError",
+    "GoodnessOfFitResult",
     "InputDataError",
     "IntegrityError",
     "KnotsError",
@@ -47,6 +52,7 @@ __all__ = [
     "fingerprint_file",
     "fit",
     "from_knots",
+    "goodness_of_fit",
     "known_methods",
     "load_sampler",
     "make_rng",

@@ -35,6 +35,8 @@ __all__ = [
     "read_knots",
 ]
 
+COUNT_FAMILIES = frozenset({"poisson", "negative_binomial", "geometric", "binomial"})
+
 # method -> (fewest values, options accepted)
 NONPARAMETRIC_METHODS: dict[str, tuple[int, frozenset[str]]] = {
     "empirical": (1, frozenset()),
@@ -126,7 +128,13 @@ def fit(
         return _interpolated(x)
     if method in FAMILIES:
         out = fit_family(method, x, w, **options)
-        return ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic, bic=out.bic)
+        sampler = ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic,
+                                    bic=out.bic)
+        if method in COUNT_FAMILIES:
+            from .counts import count_diagnostics
+
+            sampler.diagnostics = count_diagnostics(x, w)  # type: ignore[attr-defined]
+        return sampler
     raise MethodError(f"unknown method {method!r}; expected one of: {', '.join(known_methods())}")
 
 

@@ -52,9 +52,12 @@ def format_show(path: Any, sampler: Sampler, meta: dict[str, Any]) -> str:
             aic = row.get("aic")
             aic_text = f"aic {aic:.6g}" if isinstance(aic, float) else "aic -"
             lines.append(f"    {row['rank']}. {row['method']:<14} {aic_text}")
+    auto = (meta.get("diagnostics") or {}).get("auto")
+    if auto:
+        lines += _auto_table(auto)
     for name, block in (meta.get("diagnostics") or {}).items():
-        if name != "selection":
-            lines.append(f"  {name}: {json.dumps(block, sort_keys=True)[:200]}")
+        if name not in ("selection", "auto"):
+            lines.append(f"  {name}: {json.dumps(block, sort_keys=True)[:300]}")
     prov = meta.get("provenance") or {}
     lines.append(f"  source       {prov.get('source')} column {prov.get('column')!r}")
     lines.append(f"  fingerprint  {meta.get('fingerprint')}")
@@ -62,6 +65,31 @@ def format_show(path: Any, sampler: Sampler, meta: dict[str, Any]) -> str:
     lines.append(f"  content      {meta['content_hash']}")
     lines.append(f"  created      {prov.get('created_at')}")
     return "\n".join(lines)
+
+
+def _num(v: Any, fmt: str = ".4g") -> str:
+    return "-" if v is None else format(v, fmt)
+
+
+def _auto_table(auto: dict[str, Any]) -> list[str]:
+    """The candidate ranking of method 'auto' as aligned text."""
+    lines = [f"  candidates   ranked by {auto['rule']}; p-values from {auto['n_resamples']} "
+             "parametric-bootstrap refits",
+             f"    {'#':>2} {'family':<18} {'loglik':>11} {'AIC':>11} {'BIC':>11} "
+             f"{'KS':>7} {'p':>5} {'AD':>7} {'p':>5} {'CvM':>7} {'p':>5}"]
+    for row in auto["ranking"]:
+        if row.get("error"):
+            lines.append(f"    {row['rank']:>2} {row['family']:<18} failed: {row['error']}")
+            continue
+        st, pv = row.get("statistics") or {}, row.get("pvalues") or {}
+        lines.append(
+            f"    {row['rank']:>2} {row['family']:<18} {_num(row['loglik'], '11.2f')} "
+            f"{_num(row['aic'], '11.2f')} {_num(row['bic'], '11.2f')} "
+            + " ".join(f"{_num(st.get(k), '7.4f')} {_num(pv.get(k), '5.3f')}"
+                       for k in ("ks", "ad", "cvm")))
+    if auto.get("poor_fit"):
+        lines.append("  WARNING      the chosen family fails a goodness-of-fit test at p < 0.01")
+    return lines
 
 
 def _ks_distance(sampler: Sampler, x: np.ndarray) -> float:
