@@ -12,7 +12,9 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-from .artifacts import load_sampler, read_metadata, verify_artifact, write_sampler
+import importlib
+from typing import TYPE_CHECKING, Any
+
 from .errors import (
     ArtifactError,
     ConfigError,
@@ -23,16 +25,61 @@ from .errors import (
     MethodError,
     SamplewrightError,
 )
-from .fingerprint import fingerprint_arrays, fingerprint_file
-from .fitting import fit, known_methods, read_knots
-from .gof import GoodnessOfFitResult, goodness_of_fit
-from .intake import read_column
-from .randomness import make_rng, stream_rng
-from .samplers import EmpiricalSampler, ParametricSampler, PiecewiseSampler, Sampler, from_knots
-from .workflow import rules_path
 
-# Modules that register extra methods (and sampler kinds) when imported.
-from . import censoring, counts, model_choice  # noqa: E402, F401  isort: skip
+# Public name -> module that defines it. Loaded on first access (PEP 562), so that
+# ``import samplewright`` (done by every Snakemake parse of a workflow) stays cheap.
+_LAZY = {
+    "EmpiricalSampler": "samplers",
+    "GoodnessOfFitResult": "gof",
+    "ParametricSampler": "samplers",
+    "PiecewiseSampler": "samplers",
+    "Sampler": "samplers",
+    "fingerprint_arrays": "fingerprint",
+    "fingerprint_file": "fingerprint",
+    "fit": "fitting",
+    "from_knots": "samplers",
+    "goodness_of_fit": "gof",
+    "known_methods": "fitting",
+    "load_sampler": "artifacts",
+    "make_rng": "randomness",
+    "read_column": "intake",
+    "read_knots": "fitting",
+    "read_metadata": "artifacts",
+    "rules_path": "workflow",
+    "stream_rng": "randomness",
+    "verify_artifact": "artifacts",
+    "write_sampler": "artifacts",
+}
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .artifacts import load_sampler, read_metadata, verify_artifact, write_sampler
+    from .fingerprint import fingerprint_arrays, fingerprint_file
+    from .fitting import fit, known_methods, read_knots
+    from .gof import GoodnessOfFitResult, goodness_of_fit
+    from .intake import read_column
+    from .randomness import make_rng, stream_rng
+    from .samplers import (
+        EmpiricalSampler,
+        ParametricSampler,
+        PiecewiseSampler,
+        Sampler,
+        from_knots,
+    )
+    from .workflow import rules_path
+
+
+def __getattr__(name: str) -> Any:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'samplewright' has no attribute {name!r}")
+    value = getattr(importlib.import_module(f"samplewright.{module}"), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)
+
 
 __all__ = [
     "ArtifactError",

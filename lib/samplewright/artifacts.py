@@ -229,6 +229,9 @@ def verify_artifact(path: str | Path) -> dict[str, Any]:
 def _build(path: Path, payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> Sampler:
     described = meta.get("sampler") or {}
     kind = described.get("kind")
+    from .extensions import load_extensions
+
+    load_extensions()  # extension modules define their sampler kinds
     cls = SAMPLER_KINDS.get(str(kind))
     if cls is None:
         raise ArtifactError(f"{path}: unknown sampler kind {kind!r} (newer samplewright?)")

@@ -22,7 +22,10 @@ from pathlib import Path
 
 import numpy as np
 
-from .intake import ColumnData, Policy, read_column
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # intake pulls in pandas and pyarrow: only needed when a file is read
+    from .intake import ColumnData, Policy
 
 __all__ = [
     "FINGERPRINT_VERSION",
@@ -112,6 +115,8 @@ class FingerprintCache:
     ) -> str:
         path = Path(path)
         if not path.is_file():
+            from .intake import read_column
+
             read_column(path, column)  # raises the standard "not found" error
         entry_key = json.dumps(
             [str(path.resolve()), column, weights, censor, missing, infinite, FINGERPRINT_VERSION]
@@ -120,11 +125,30 @@ class FingerprintCache:
         hit = self.entries.get(entry_key)
         if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
             return str(hit["fingerprint"])
+        from .intake import read_column
+
         data = read_column(
             path, column, weights=weights, censor=censor, missing=missing, infinite=infinite
         )
         fp = fingerprint_column(data)
         if _stat_key(path) == stat:  # unchanged while we read it
+            self.entries[entry_key] = {**stat, "fingerprint": fp}
+            self.dirty = True
+        return fp
+
+    def fingerprint_knots(self, path: str | Path) -> str:
+        """Fingerprint of a user-drawn CDF file (its knots x then p), memoised the same way."""
+        path = Path(path)
+        entry_key = json.dumps([str(path.resolve()), "<knots>", FINGERPRINT_VERSION])
+        stat = _stat_key(path)
+        hit = self.entries.get(entry_key)
+        if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
+            return str(hit["fingerprint"])
+        from .fitting import read_knots
+
+        knots = read_knots(path)
+        fp = fingerprint_arrays(np.concatenate([knots.x, knots.p]))
+        if _stat_key(path) == stat:
             self.entries[entry_key] = {**stat, "fingerprint": fp}
             self.dirty = True
         return fp

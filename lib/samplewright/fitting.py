@@ -46,9 +46,9 @@ NONPARAMETRIC_METHODS: dict[str, tuple[int, frozenset[str]]] = {
 
 def known_methods() -> list[str]:
     """Every method name ``fit`` accepts."""
-    from .extensions import EXTENSION_METHODS
+    from .catalog import METHODS
 
-    return sorted({*NONPARAMETRIC_METHODS, *FAMILIES, *EXTENSION_METHODS})
+    return list(METHODS)
 
 
 def canonical_method(method: str, options: Mapping[str, Any] | None = None) -> str:
@@ -100,8 +100,9 @@ def fit(
     if c is not None and c.shape != x.shape:
         raise MethodError(f"censored: expected {x.size} flags, found {c.size}")
 
-    from .extensions import EXTENSION_METHODS
+    from .extensions import load_extensions
 
+    EXTENSION_METHODS = load_extensions()
     if method in EXTENSION_METHODS:
         return EXTENSION_METHODS[method](x, w, c, **options)
     if c is not None and c.any():

@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import hashlib
 import json
-import re
 import sys
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
@@ -45,6 +44,7 @@ RESULTS_VERSION = 1
 KEY_LEN = 20
 KEY_PATTERN = f"[0-9a-f]{{{KEY_LEN}}}"
 LABEL_PATTERN = r"[A-Za-z0-9][A-Za-z0-9_.\-]*"
+DATASET_PATTERN = r"[A-Za-z][A-Za-z0-9_]*"
 _SCHEMA_PATH = Path(__file__).resolve().parent / "schemas" / "config.schema.json"
 
 
@@ -124,14 +124,13 @@ class MethodSpec:
 
     @property
     def canonical(self) -> str:
-        from .fitting import canonical_method
-
-        return canonical_method(self.method, self.options)
+        """Sorted JSON of the method and its options (as fitting.canonical_method)."""
+        return json.dumps({"method": self.method, "options": self.options}, sort_keys=True,
+                          separators=(",", ":"))
 
 
 def _method_specs(name: str, ds: Mapping[str, Any]) -> list[MethodSpec]:
-    from .families import FAMILIES, FIT_OPTIONS
-    from .fitting import known_methods
+    from .catalog import FAMILY_OPTIONS, METHODS
 
     specs = []
     for i, item in enumerate(ds.get("methods") or []):
@@ -139,14 +138,13 @@ def _method_specs(name: str, ds: Mapping[str, Any]) -> list[MethodSpec]:
         if isinstance(item, str):
             item = {"method": item}
         method = item["method"]
-        if method not in known_methods():
+        if method not in METHODS:
             raise ConfigError(
-                f"{where}: unknown method {method!r} "
-                f"(expected one of: {', '.join(known_methods())})"
+                f"{where}: unknown method {method!r} (expected one of: {', '.join(METHODS)})"
             )
         options = dict(item.get("options") or {})
-        if method in FAMILIES:
-            bad = sorted(set(options) - FIT_OPTIONS.get(method, frozenset()))
+        if method in FAMILY_OPTIONS:
+            bad = sorted(set(options) - FAMILY_OPTIONS[method])
             if bad:
                 raise ConfigError(f"{where}.options: unknown option {bad[0]!r} for {method}")
         specs.append(MethodSpec(item.get("label", method), method, options))
@@ -205,6 +203,7 @@ class Plan:
         self.datasets: dict[str, dict[str, Any]] = self.config["datasets"]
         self.specs = {n: self._specs(n) for n in self.datasets}
         self._fps: dict[str, str] = {}
+        self._keys: dict[tuple[str, ...], str] = {}
         self._fingerprint_all()
 
     # -- setup ------------------------------------------------------------------------------
@@ -216,8 +215,7 @@ class Plan:
         return _method_specs(name, ds)
 
     def _fingerprint_all(self) -> None:
-        from .fingerprint import FingerprintCache, fingerprint_arrays
-        from .fitting import read_knots
+        from .fingerprint import FingerprintCache
 
         cache = FingerprintCache(self.store)
         try:
@@ -225,10 +223,9 @@ class Plan:
                 where = f"samplewright.datasets.{name}"
                 if "knots" in ds:
                     try:
-                        k = read_knots(ds["knots"])
+                        self._fps[name] = cache.fingerprint_knots(ds["knots"])
                     except KnotsError as exc:
                         raise ConfigError(f"{where}.knots: {exc}") from None
-                    self._fps[name] = fingerprint_arrays(k.x, k.p)
                 elif not ds["produced"]:
                     try:
                         self._fps[name] = cache.fingerprint(
@@ -291,7 +288,11 @@ class Plan:
 
     def select_key(self, name: str) -> str:
         keys = [self.fit_key(name, s.label) for s in self.candidates(name)]
-        return _h("select", keys, self.datasets[name]["choose"], self.results_version)
+        memo = ("select", name, *keys)
+        if memo not in self._keys:
+            self._keys[memo] = _h("select", keys, self.datasets[name]["choose"],
+                                  self.results_version)
+        return self._keys[memo]
 
     def draws_key(self, name: str) -> str:
         n = self.datasets[name]["draws"]
@@ -341,7 +342,8 @@ class Plan:
         return fn(name)
 
     def dataset_pattern(self) -> str:
-        return "|".join(re.escape(n) for n in self.datasets)
+        """Wildcard constraint for dataset names (the schema's name pattern)."""
+        return DATASET_PATTERN
 
     def snapshot_args(self, name: str) -> str:
         """Command-line arguments naming the column, weights, censoring and cleaning policy."""

@@ -12,7 +12,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-import samplewright.fingerprint as fpmod
+import samplewright.intake as intake_mod
 from samplewright.errors import InputDataError
 from samplewright.fingerprint import fingerprint_arrays, fingerprint_file
 
@@ -147,7 +147,7 @@ def test_cache_is_used_on_the_second_call(
     first = fingerprint_file(csv_file, "hours", cache_dir=cache)
     stored = json.loads((cache / "fingerprints.json").read_text())
     assert [e["fingerprint"] for e in stored.values()] == [first]
-    monkeypatch.setattr(fpmod, "read_column", _fail_read)
+    monkeypatch.setattr(intake_mod, "read_column", _fail_read)
     assert fingerprint_file(csv_file, "hours", cache_dir=cache) == first
 
 
@@ -158,13 +158,13 @@ def test_cache_entry_is_keyed_by_column_and_policy(
     cache = tmp_path / "cache"
     fingerprint_file(csv_file, "hours", cache_dir=cache)
     calls: list[str] = []
-    real = fpmod.read_column
+    real = intake_mod.read_column
 
     def counting(path: Path, column: str, **kw: object) -> object:
         calls.append(column)
         return real(path, column, **kw)  # type: ignore[arg-type]
 
-    monkeypatch.setattr(fpmod, "read_column", counting)
+    monkeypatch.setattr(intake_mod, "read_column", counting)
     fingerprint_file(csv_file, "w", cache_dir=cache)
     fingerprint_file(csv_file, "hours", weights="w", cache_dir=cache)
     assert calls == ["w", "hours"]
@@ -190,7 +190,7 @@ def test_cache_is_invalidated_when_only_mtime_changes(
     fingerprint_file(csv_file, "hours", cache_dir=cache)
     st = csv_file.stat()
     os.utime(csv_file, ns=(st.st_atime_ns, st.st_mtime_ns + 5_000_000_000))
-    monkeypatch.setattr(fpmod, "read_column", _fail_read)
+    monkeypatch.setattr(intake_mod, "read_column", _fail_read)
     with pytest.raises(AssertionError, match="cache was not used"):
         fingerprint_file(csv_file, "hours", cache_dir=cache)
 

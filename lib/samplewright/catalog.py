@@ -1,0 +1,45 @@
+"""The names of every method and the options each family accepts, without importing them.
+
+Planning a workflow validates method names and options on every Snakemake parse (and each
+cluster job parses again), so this module is plain data: importing it costs nothing, while the
+implementations pull in scipy. A test checks it against the implementations.
+"""
+
+from __future__ import annotations
+
+__all__ = ["EXTENSION_MODULES", "FAMILY_OPTIONS", "METHODS", "NONPARAMETRIC"]
+
+# family -> fit options it accepts (see samplewright.families)
+FAMILY_OPTIONS: dict[str, frozenset[str]] = {
+    "normal": frozenset(),
+    "lognormal": frozenset({"loc"}),
+    "exponential": frozenset({"loc"}),
+    "gamma": frozenset({"loc"}),
+    "weibull": frozenset({"loc"}),
+    "gumbel": frozenset(),
+    "logistic": frozenset(),
+    "loglogistic": frozenset({"loc"}),
+    "pareto": frozenset({"loc", "xm"}),
+    "generalized_pareto": frozenset({"loc"}),
+    "gev": frozenset(),
+    "beta": frozenset({"lower", "upper"}),
+    "uniform": frozenset({"lower", "upper"}),
+    "triangular": frozenset({"lower", "upper"}),
+    "inverse_gaussian": frozenset({"loc"}),
+    "student_t": frozenset(),
+    "rayleigh": frozenset({"loc"}),
+    "poisson": frozenset(),
+    "negative_binomial": frozenset(),
+    "geometric": frozenset(),
+    "binomial": frozenset({"n_trials"}),
+}
+NONPARAMETRIC = ("empirical", "interpolated")
+# extension method -> module that registers it (imported on first use)
+EXTENSION_MODULES: dict[str, str] = {
+    "auto": "model_choice",
+    "spliced": "tails",
+    "smoothed": "smoothing",
+    "kaplan_meier": "censoring",
+    "empirical_pmf": "counts",
+}
+METHODS: tuple[str, ...] = tuple(sorted({*FAMILY_OPTIONS, *NONPARAMETRIC, *EXTENSION_MODULES}))

@@ -1,0 +1,32 @@
+"""The static method catalog matches the implementations it stands in for."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+from samplewright import catalog
+from samplewright.extensions import load_extensions
+from samplewright.families import FAMILIES, FIT_OPTIONS
+from samplewright.fitting import NONPARAMETRIC_METHODS
+
+
+def test_family_options_match_the_families_module() -> None:
+    """Every family and its accepted options are listed exactly as families.py defines them."""
+    assert set(catalog.FAMILY_OPTIONS) == set(FAMILIES)
+    for name, options in catalog.FAMILY_OPTIONS.items():
+        assert options == FIT_OPTIONS[name], name
+
+
+def test_extension_methods_are_registered_by_their_modules() -> None:
+    """Loading the extension modules registers exactly the catalogued extension methods."""
+    assert set(load_extensions()) == set(catalog.EXTENSION_MODULES)
+    assert set(catalog.NONPARAMETRIC) == set(NONPARAMETRIC_METHODS)
+
+
+def test_planning_imports_stay_light() -> None:
+    """Importing samplewright.workflow (every Snakemake parse does) loads neither scipy nor pandas."""
+    code = ("import sys, samplewright, samplewright.workflow; "
+            "print(sorted(m for m in ('scipy', 'pandas', 'pyarrow') if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
