@@ -7,7 +7,14 @@ implementations pull in scipy. A test checks it against the implementations.
 
 from __future__ import annotations
 
-__all__ = ["EXTENSION_MODULES", "FAMILY_OPTIONS", "METHODS", "NONPARAMETRIC"]
+__all__ = [
+    "EXTENSION_MODULES",
+    "EXTENSION_OPTIONS",
+    "FAMILY_OPTIONS",
+    "METHODS",
+    "METHOD_OPTIONS",
+    "NONPARAMETRIC",
+]
 
 # family -> fit options it accepts (see samplewright.families)
 FAMILY_OPTIONS: dict[str, frozenset[str]] = {
@@ -42,4 +49,17 @@ EXTENSION_MODULES: dict[str, str] = {
     "kaplan_meier": "censoring",
     "empirical_pmf": "counts",
 }
-METHODS: tuple[str, ...] = tuple(sorted({*FAMILY_OPTIONS, *NONPARAMETRIC, *EXTENSION_MODULES}))
+EXTENSION_OPTIONS: dict[str, frozenset[str]] = {
+    "auto": frozenset({"candidates", "criterion", "n_resamples", "seed"}),
+    "spliced": frozenset({"body", "threshold", "threshold_quantile"}),
+    "smoothed": frozenset({"bandwidth", "positive"}),
+    "kaplan_meier": frozenset({"tail"}),
+    "empirical_pmf": frozenset(),
+}
+# every method -> the options it accepts
+METHOD_OPTIONS: dict[str, frozenset[str]] = {
+    **FAMILY_OPTIONS,
+    **{name: frozenset() for name in NONPARAMETRIC},
+    **EXTENSION_OPTIONS,
+}
+METHODS: tuple[str, ...] = tuple(sorted(METHOD_OPTIONS))

@@ -276,7 +276,8 @@ def cmd_select(args: argparse.Namespace) -> int:
 def cmd_check(args: argparse.Namespace) -> int:
     from .report import write_check
 
-    write_check(args.data, args.candidates, out=args.out, dataset=args.dataset)
+    write_check(args.data, args.candidates, out=args.out, dataset=args.dataset,
+                column=args.column)
     print(f"{args.out}: check written for {len(args.candidates)} candidate(s)")
     return 0
 
@@ -383,6 +384,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("data", help="data file or snapshot")
     p.add_argument("candidates", nargs="+")
     p.add_argument("--dataset", default="", help="dataset name for the heading")
+    p.add_argument("--column", "-c", help="value column (not needed for a snapshot)")
     p.add_argument("--out", required=True, help="summary path (.json; a .md is written beside)")
     p.set_defaults(func=cmd_check)
     return parser

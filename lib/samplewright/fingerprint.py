@@ -19,10 +19,9 @@ import json
 import os
 import tempfile
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-
-from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:  # intake pulls in pandas and pyarrow: only needed when a file is read
     from .intake import ColumnData, Policy

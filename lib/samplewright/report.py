@@ -24,7 +24,7 @@ CAUTION = (
     "judgement it stands in for, especially in the tail, before results inform safety or money "
     "decisions; local codes and licensed practice take precedence."
 )
-_PROBS = (0.5, 0.9, 0.99)
+_PROBS = (0.5, 0.9, 0.99, 0.999)
 
 
 def format_show(path: Any, sampler: Sampler, meta: dict[str, Any]) -> str:
@@ -93,75 +93,147 @@ def _auto_table(auto: dict[str, Any]) -> list[str]:
 
 
 def _ks_distance(sampler: Sampler, x: np.ndarray) -> float:
-    xs = np.sort(x)
-    n = xs.size
-    f = np.asarray(sampler.cdf(xs), dtype=np.float64)
-    upper = np.arange(1, n + 1) / n - f
-    # left limits of the model CDF matter for atoms: use the empirical step below each point
-    lower = f - np.arange(0, n) / n
-    return float(max(upper.max(), lower.max(), 0.0))
+    """sup |F_n - F| over the line, exact for continuous, discrete and mixed models.
+
+    Both step functions jump only at data values (F_n) or at the model's atoms; comparing at
+    every distinct data value v and at its left limit v- (F(v-) by the next float below) gives
+    the supremum for models whose atoms sit at data values, and the usual statistic otherwise.
+    """
+    values, counts = np.unique(x, return_counts=True)
+    fn = np.cumsum(counts) / x.size
+    fn_left = np.concatenate([[0.0], fn[:-1]])
+    f = np.asarray(sampler.cdf(values), dtype=np.float64)
+    f_left = np.asarray(sampler.cdf(np.nextafter(values, -np.inf)), dtype=np.float64)
+    return float(max(np.max(np.abs(fn - f)), np.max(np.abs(fn_left - f_left))))
+
+
+def _finite_or_none(v: Any) -> float | None:
+    try:
+        f = float(v)
+    except (TypeError, ValueError):
+        return None
+    return f if np.isfinite(f) else None
+
+
+def _label(s: Sampler) -> str:
+    family = getattr(getattr(s, "family", None), "name", None)
+    return f"{s.method} ({family})" if family and family != s.method else s.method
 
 
 def check_candidates(x: np.ndarray, samplers: Sequence[Sampler]) -> list[dict[str, Any]]:
-    """Compare each candidate with the data: distance, moments, quantiles, reach beyond the data.
+    """Compare each candidate with the data: distance, moments, quantiles, the tail beyond the
+    data, and the diagnostics the fit recorded (threshold scans, dispersion, rankings).
 
     ``ks`` is the Kolmogorov–Smirnov distance sup |F_n - F| (no p-value: parameters were
-    estimated from the same data).
+    estimated from the same data; method ``auto`` records bootstrap p-values). Non-finite values
+    (an infinite mean of a heavy tail) are written as null.
     """
     data_q = np.quantile(x, _PROBS)
+    top = float(np.max(x))
     rows = []
     for s in samplers:
         q = np.asarray(s.quantile(np.asarray(_PROBS)), dtype=np.float64)
         lo, hi = s.support
+        meta = getattr(s, "metadata", {}) or {}
         rows.append(
             {
-                "method": s.method,
+                "method": _label(s),
                 "ks": _ks_distance(s, x),
-                "mean": float(s.mean),
+                "mean": _finite_or_none(s.mean),
                 "data_mean": float(np.mean(x)),
-                "sd": float(s.sd),
+                "sd": _finite_or_none(s.sd),
                 "data_sd": float(np.std(x)),
                 "quantiles": {
-                    f"p{round(p * 100)}": float(v) for p, v in zip(_PROBS, q, strict=True)
+                    f"p{p * 100:g}": _finite_or_none(v) for p, v in zip(_PROBS, q, strict=True)
                 },
                 "data_quantiles": {
-                    f"p{round(p * 100)}": float(v) for p, v in zip(_PROBS, data_q, strict=True)
+                    f"p{p * 100:g}": float(v) for p, v in zip(_PROBS, data_q, strict=True)
                 },
-                "can_exceed_data_max": bool(hi > float(np.max(x))),
-                "loglik": getattr(s, "loglik", None),
-                "aic": getattr(s, "aic", None),
+                "can_exceed_data_max": bool(hi > top),
+                "prob_above_data_max": _finite_or_none(1.0 - float(s.cdf(top))),
+                "loglik": _finite_or_none(getattr(s, "loglik", None)),
+                "aic": _finite_or_none(getattr(s, "aic", None)),
+                "diagnostics": meta.get("diagnostics") or {},
             }
         )
     return rows
 
 
+def _fmt(v: Any, spec: str = ".4g") -> str:
+    return "-" if v is None else format(v, spec)
+
+
+def _markdown(dataset: str, n: int, rows: list[dict[str, Any]]) -> list[str]:
+    md = [
+        f"# Check: {dataset}",
+        "",
+        f"{n} observations. KS is the largest gap between the data's ECDF and the model's CDF.",
+        "",
+        "| method | KS distance | mean (data) | p99 (data) | p99.9 (data) | P(X > data max) "
+        "| AIC |",
+        "|---|---|---|---|---|---|---|",
+    ]
+    for r in rows:
+        md.append(
+            f"| {r['method']} | {r['ks']:.4f} | {_fmt(r['mean'])} ({r['data_mean']:.4g}) | "
+            f"{_fmt(r['quantiles']['p99'])} ({r['data_quantiles']['p99']:.4g}) | "
+            f"{_fmt(r['quantiles']['p99.9'])} ({r['data_quantiles']['p99.9']:.4g}) | "
+            f"{_fmt(r['prob_above_data_max'], '.3g')} | {_fmt(r['aic'], '.2f')} |"
+        )
+    for r in rows:
+        diag = r["diagnostics"]
+        if "dispersion" in diag:
+            md += ["", f"**{r['method']}**, dispersion: {diag['dispersion'].get('message')}"]
+        if "auto" in diag:
+            md += ["", f"**{r['method']}**, candidates by {diag['auto']['rule']}:", "",
+                   "| family | AIC | KS p | AD p | CvM p |", "|---|---|---|---|---|"]
+            for row in diag["auto"]["ranking"]:
+                pv = row.get("pvalues") or {}
+                md.append(f"| {row['family']} | {_fmt(row.get('aic'), '.2f')} | "
+                          + " | ".join(_fmt(pv.get(k), ".3f") for k in ("ks", "ad", "cvm"))
+                          + " |")
+        if "threshold_choice" in diag:
+            tc = diag["threshold_choice"]
+            md += ["", f"**{r['method']}**, tail threshold {_fmt(tc.get('threshold'))} "
+                       f"(rule: {tc.get('rule')}, {tc.get('n_exceedances')} exceedances).", "",
+                   "| threshold (quantile) | mean excess | exceedances | tail shape xi (se) |",
+                   "|---|---|---|---|"]
+            me = diag.get("mean_excess") or {}
+            stab = diag.get("parameter_stability") or {}
+            xi_at = dict(zip(stab.get("threshold", []),
+                             zip(stab.get("xi", []), stab.get("xi_se", []), strict=False),
+                             strict=False))
+            for u, p, e, k in zip(me.get("threshold", []), me.get("probability", []),
+                                  me.get("mean_excess", []), me.get("n_exceedances", []),
+                                  strict=False):
+                xi, se = xi_at.get(u, (None, None))
+                shape = "-" if xi is None else f"{xi:.3f} ({_fmt(se, '.3f')})"
+                md.append(f"| {_fmt(u)} ({p:g}) | {_fmt(e)} | {k} | {shape} |")
+    md += ["", f"_{CAUTION}_", ""]
+    return md
+
+
 def write_check(
-    data_path: str | Path, candidates: Sequence[str | Path], *, out: str | Path, dataset: str = ""
+    data_path: str | Path,
+    candidates: Sequence[str | Path],
+    *,
+    out: str | Path,
+    dataset: str = "",
+    column: str | None = None,
 ) -> dict[str, Any]:
-    """Write the check summary as JSON to ``out`` and as Markdown beside it (``.md``)."""
+    """Write the check summary as JSON to ``out`` and as Markdown beside it (``.md``).
+
+    ``data_path`` is a snapshot (its column is known) or a data file with ``column``.
+    """
     from .snapshots import read_data
 
-    data, _ = read_data(data_path, None if str(data_path).endswith(".parquet") else "value")
+    data, _ = read_data(data_path, column)
     samplers = [load_sampler(c) for c in candidates]
     rows = check_candidates(data.values, samplers)
     doc = {"dataset": dataset, "n_obs": data.n, "candidates": rows, "caution": CAUTION}
     out = Path(out)
-    atomic_write(out, lambda tmp: Path(tmp).write_text(json.dumps(doc, indent=2) + "\n"))
-    md = [
-        f"# Check: {dataset or data_path}",
-        "",
-        f"{data.n} observations.",
-        "",
-        "| method | KS distance | mean (data) | p99 (data) | beyond max? | AIC |",
-        "|---|---|---|---|---|---|",
-    ]
-    for r in rows:
-        aic = f"{r['aic']:.2f}" if r["aic"] is not None else "-"
-        md.append(
-            f"| {r['method']} | {r['ks']:.4f} | {r['mean']:.4g} ({r['data_mean']:.4g}) | "
-            f"{r['quantiles']['p99']:.4g} ({r['data_quantiles']['p99']:.4g}) | "
-            f"{'yes' if r['can_exceed_data_max'] else 'no'} | {aic} |"
-        )
-    md += ["", f"_{CAUTION}_", ""]
-    atomic_write(out.with_suffix(".md"), lambda tmp: Path(tmp).write_text("\n".join(md)))
+    text = json.dumps(doc, indent=2, allow_nan=False) + "\n"
+    md = "\n".join(_markdown(dataset or str(data_path), data.n, rows))
+    atomic_write(out, lambda tmp: Path(tmp).write_text(text))
+    atomic_write(out.with_suffix(".md"), lambda tmp: Path(tmp).write_text(md))
     return doc

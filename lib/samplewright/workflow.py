@@ -130,7 +130,7 @@ class MethodSpec:
 
 
 def _method_specs(name: str, ds: Mapping[str, Any]) -> list[MethodSpec]:
-    from .catalog import FAMILY_OPTIONS, METHODS
+    from .catalog import METHOD_OPTIONS, METHODS
 
     specs = []
     for i, item in enumerate(ds.get("methods") or []):
@@ -143,10 +143,12 @@ def _method_specs(name: str, ds: Mapping[str, Any]) -> list[MethodSpec]:
                 f"{where}: unknown method {method!r} (expected one of: {', '.join(METHODS)})"
             )
         options = dict(item.get("options") or {})
-        if method in FAMILY_OPTIONS:
-            bad = sorted(set(options) - FAMILY_OPTIONS[method])
-            if bad:
-                raise ConfigError(f"{where}.options: unknown option {bad[0]!r} for {method}")
+        bad = sorted(set(options) - METHOD_OPTIONS[method])
+        if bad:
+            allowed = ", ".join(sorted(METHOD_OPTIONS[method])) or "none"
+            raise ConfigError(
+                f"{where}.options: unknown option {bad[0]!r} for {method} (allowed: {allowed})"
+            )
         specs.append(MethodSpec(item.get("label", method), method, options))
     labels = [s.label for s in specs]
     dup = next((lab for lab in labels if labels.count(lab) > 1), None)

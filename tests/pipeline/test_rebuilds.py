@@ -150,7 +150,7 @@ def test_changing_one_method_option_reruns_only_affected(pipeline: Path) -> None
 
     def shift(cfg: dict) -> None:
         methods = cfg["samplewright"]["datasets"]["crew_hour_cost"]["methods"]
-        methods[0] = {"method": "gamma", "options": {"loc": 5.0}}
+        methods[0] = {"method": "auto", "options": {"criterion": "bic"}}
 
     original = _set_config(pipeline, shift)
     try:

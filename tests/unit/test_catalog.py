@@ -24,8 +24,26 @@ def test_extension_methods_are_registered_by_their_modules() -> None:
     assert set(catalog.NONPARAMETRIC) == set(NONPARAMETRIC_METHODS)
 
 
+def test_extension_options_match_their_modules() -> None:
+    """The catalogued options of each extension method are exactly those its fitter accepts."""
+    import pytest
+
+    from samplewright import model_choice, smoothing, tails
+    from samplewright.errors import MethodError
+    from samplewright.fitting import fit
+
+    assert catalog.EXTENSION_OPTIONS["auto"] == set(model_choice._OPTIONS)
+    assert catalog.EXTENSION_OPTIONS["spliced"] == set(tails._OPTIONS)
+    assert catalog.EXTENSION_OPTIONS["smoothed"] == set(smoothing._OPTIONS)
+    x = [1.0, 2.0, 2.5, 4.0, 7.0]
+    assert fit(x, "kaplan_meier", tail="at_last").method == "kaplan_meier"
+    for method in ("kaplan_meier", "empirical_pmf"):
+        with pytest.raises(MethodError, match="unknown option 'colour'"):
+            fit(x, method, colour=1)
+
+
 def test_planning_imports_stay_light() -> None:
-    """Importing samplewright.workflow (every Snakemake parse does) loads neither scipy nor pandas."""
+    """Importing samplewright.workflow (as every Snakemake parse does) loads no scipy or pandas."""
     code = ("import sys, samplewright, samplewright.workflow; "
             "print(sorted(m for m in ('scipy', 'pandas', 'pyarrow') if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
