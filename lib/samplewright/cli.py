@@ -253,16 +253,20 @@ def cmd_show(args: argparse.Namespace) -> int:
 
 
 def cmd_verify(args: argparse.Namespace) -> int:
-    failed = 0
+    """ok/FAIL per artifact; exit 3 if any was altered, else 2 if any was unreadable."""
+    status = 0
     for path in args.artifacts:
         try:
             meta = verify_artifact(path)
+        except IntegrityError as exc:
+            print(f"FAIL {exc}")
+            status = EXIT_INTEGRITY
         except SamplewrightError as exc:
             print(f"FAIL {exc}")
-            failed += 1
+            status = status or EXIT_INPUT
         else:
             print(f"ok   {path}: {meta['sampler']['method']} {meta['content_hash'][:19]}")
-    return EXIT_INTEGRITY if failed else 0
+    return status
 
 
 def cmd_select(args: argparse.Namespace) -> int:

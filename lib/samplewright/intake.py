@@ -123,6 +123,12 @@ def _to_float(series: pd.Series, path: Path, column: str) -> np.ndarray:
     return series.to_numpy(dtype=np.float64, na_value=np.nan)
 
 
+def _count(mask: np.ndarray, noun: str) -> str:
+    """'1 missing value' / '3 missing values'."""
+    n = int(mask.sum())
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"
+
+
 def _first_row(mask: np.ndarray) -> int:
     return int(np.flatnonzero(mask)[0]) + 1
 
@@ -163,7 +169,7 @@ def read_column(
     if nan.any():
         if missing == "error":
             raise InputDataError(
-                f"column {column!r} in {path.name} has {int(nan.sum())} missing values "
+                f"column {column!r} in {path.name} has {_count(nan, 'missing value')} "
                 f"(first at row {_first_row(nan)}); use missing='drop' (--missing drop) "
                 "to drop them"
             )
@@ -173,7 +179,7 @@ def read_column(
     if inf.any():
         if infinite == "error":
             raise InputDataError(
-                f"column {column!r} in {path.name} has {int(inf.sum())} infinite values "
+                f"column {column!r} in {path.name} has {_count(inf, 'infinite value')} "
                 f"(first at row {_first_row(inf)}); use infinite='drop' (--infinite drop) "
                 "to drop them"
             )
@@ -186,14 +192,14 @@ def read_column(
         bad = ~np.isfinite(w) & keep
         if bad.any():
             raise InputDataError(
-                f"weight column {weights!r} in {path.name} has {int(bad.sum())} missing or "
-                f"infinite weights (first at row {_first_row(bad)})"
+                f"weight column {weights!r} in {path.name} has {_count(bad, 'missing or infinite weight')}"
+                f" (first at row {_first_row(bad)})"
             )
         nonpos = (w <= 0) & keep
         if nonpos.any():
             r = _first_row(nonpos)
             raise InputDataError(
-                f"weight column {weights!r} in {path.name} has {int(nonpos.sum())} weights "
+                f"weight column {weights!r} in {path.name} has {_count(nonpos, 'weight')} "
                 f"<= 0 (first at row {r}: {float(w[r - 1])!r}); weights must be > 0"
             )
         w = w[keep]

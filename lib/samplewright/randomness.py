@@ -44,10 +44,17 @@ def stable_int(*parts: str | int) -> int:
     Python's ``hash`` of a string changes per process; this does not.
 
     >>> stable_int("repair_hours", "draws")
-    13819241991603148872
+    8475149721514126860
     """
-    text = "\x1f".join(str(p) for p in parts).encode()
-    return int.from_bytes(hashlib.sha256(text).digest()[:8], "little")
+    h = hashlib.sha256(b"samplewright-stream-v1")
+    for part in parts:
+        if isinstance(part, bool) or not isinstance(part, str | int | np.integer):
+            raise TypeError(f"stream name parts: expected str or int, found {type(part).__name__}")
+        kind = b"s" if isinstance(part, str) else b"i"
+        raw = str(part).encode()
+        # type tag and length prefix: ("ab", "c") and ("a", "bc"), 1 and "1" never collide
+        h.update(kind + len(raw).to_bytes(8, "little") + raw)
+    return int.from_bytes(h.digest()[:8], "little")
 
 
 def stream_rng(root_seed: int, *name: str | int) -> np.random.Generator:

@@ -183,13 +183,13 @@ BAD_INPUTS = {
         "d.csv",
         "hours\n1\n-inf\n",
         ["-c", "hours", "-m", "empirical"],
-        "column 'hours' in d.csv has 1 infinite values (first at row 2)",
+        "column 'hours' in d.csv has 1 infinite value (first at row 2)",
     ),
     "nan": (
         "d.csv",
         "hours\n1\nNaN\n",
         ["-c", "hours", "-m", "empirical"],
-        "column 'hours' in d.csv has 1 missing values (first at row 2)",
+        "column 'hours' in d.csv has 1 missing value (first at row 2)",
     ),
     "no-rows-left": (
         "d.csv",
@@ -207,13 +207,13 @@ BAD_INPUTS = {
         "d.csv",
         "hours,w\n1,1\n2,-1\n",
         ["-c", "hours", "-m", "empirical", "--weights", "w"],
-        "weight column 'w' in d.csv has 1 weights <= 0 (first at row 2: -1.0)",
+        "weight column 'w' in d.csv has 1 weight <= 0 (first at row 2: -1.0)",
     ),
     "zero-weight": (
         "d.csv",
         "hours,w\n1,0\n2,1\n",
         ["-c", "hours", "-m", "empirical", "--weights", "w"],
-        "weight column 'w' in d.csv has 1 weights <= 0 (first at row 1: 0.0)",
+        "weight column 'w' in d.csv has 1 weight <= 0 (first at row 1: 0.0)",
     ),
     "bad-censor": (
         "d.csv",
@@ -595,3 +595,9 @@ def test_missing_knots_file_exits_2(tmp_path: Path, run_cli: Cli) -> None:
         "knots", "--file", tmp_path / "nope.yaml", "--out", tmp_path / "k.parquet"
     )
     assert code == 2 and "knots file not found" in err
+
+
+def test_verify_exits_2_on_a_missing_artifact(tmp_path: Path, run_cli: Cli) -> None:
+    """A path that is not there is an input error (exit 2), not an integrity failure (exit 3)."""
+    code, stdout, _ = run_cli("verify", str(tmp_path / "absent.parquet"))
+    assert code == 2 and stdout.startswith("FAIL") and "artifact not found" in stdout

@@ -72,7 +72,7 @@ def test_each_missing_token_is_an_error_by_default(tmp_path: Path, token: str) -
     with pytest.raises(InputDataError) as info:
         read_column(f, "v")
     assert str(info.value) == (
-        "column 'v' in d.csv has 1 missing values (first at row 3); use missing='drop' "
+        "column 'v' in d.csv has 1 missing value (first at row 3); use missing='drop' "
         "(--missing drop) to drop them"
     )
 
@@ -89,7 +89,7 @@ def test_parquet_nulls_are_missing_values(tmp_path: Path) -> None:
     """A null in a Parquet column is a missing value, like an empty CSV cell."""
     f = tmp_path / "d.parquet"
     pq.write_table(pa.table({"v": pa.array([1.0, None, 2.0])}), f)
-    with pytest.raises(InputDataError, match="1 missing values \\(first at row 2\\)"):
+    with pytest.raises(InputDataError, match="1 missing value \\(first at row 2\\)"):
         read_column(f, "v")
     assert read_column(f, "v", missing="drop").dropped == {"missing": 1}
 
@@ -100,7 +100,7 @@ def test_infinite_values_are_an_error_by_default(tmp_path: Path, text: str) -> N
     f = _write(tmp_path / "d.csv", f"v\n1\n{text}\n")
     with pytest.raises(
         InputDataError,
-        match=r"column 'v' in d.csv has 1 infinite values "
+        match=r"column 'v' in d.csv has 1 infinite value "
         r"\(first at row 2\)",
     ):
         read_column(f, "v")
@@ -242,7 +242,7 @@ def test_non_positive_weights_are_refused(tmp_path: Path, cell: str, shown: str)
     with pytest.raises(InputDataError) as info:
         read_column(f, "v", weights="w")
     assert str(info.value) == (
-        f"weight column 'w' in d.csv has 1 weights <= 0 (first at row 2: {shown}); "
+        f"weight column 'w' in d.csv has 1 weight <= 0 (first at row 2: {shown}); "
         "weights must be > 0"
     )
 
@@ -250,7 +250,7 @@ def test_non_positive_weights_are_refused(tmp_path: Path, cell: str, shown: str)
 def test_missing_weight_is_refused(tmp_path: Path) -> None:
     """A missing weight on a kept row is an error naming its row."""
     f = _write(tmp_path / "d.csv", "v,w\n1,1\n2,\n")
-    with pytest.raises(InputDataError, match="missing or infinite weights \\(first at row 2\\)"):
+    with pytest.raises(InputDataError, match="missing or infinite weight \\(first at row 2\\)"):
         read_column(f, "v", weights="w")
 
 
