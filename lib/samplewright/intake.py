@@ -192,8 +192,8 @@ def read_column(
         bad = ~np.isfinite(w) & keep
         if bad.any():
             raise InputDataError(
-                f"weight column {weights!r} in {path.name} has {_count(bad, 'missing or infinite weight')}"
-                f" (first at row {_first_row(bad)})"
+                f"weight column {weights!r} in {path.name} has "
+                f"{_count(bad, 'missing or infinite weight')} (first at row {_first_row(bad)})"
             )
         nonpos = (w <= 0) & keep
         if nonpos.any():

@@ -124,7 +124,7 @@ def test_cleaning_policy_is_applied_before_hashing(tmp_path: Path) -> None:
     b = tmp_path / "b.csv"
     b.write_text("v\n1\n2\n")
     assert fingerprint_file(a, "v", missing="drop") == fingerprint_file(b, "v")
-    with pytest.raises(InputDataError, match="missing values"):
+    with pytest.raises(InputDataError, match="1 missing value "):
         fingerprint_file(a, "v")
 
 
