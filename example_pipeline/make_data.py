@@ -8,6 +8,8 @@ coming winter. Its records (all made up here) are:
   hours (a heavy right tail: most jobs take a few hours, a few take days) and cost per crew-hour.
 * data/breaks.parquet: breaks reported per district per winter day over past winters
   (24 districts).
+* data/pumps.csv: hours each booster pump ran until it failed, or until the records were cut
+  off while it was still running (``still_running`` = 1: a right-censored value).
 * data/spare_part_wait.yaml: the network engineer's drawn CDF of the wait for a spare part
   (hours), from experience with the supplier: never under 2 h, usually within a day, a 10 %
   chance of a weekend delay (a step at 60 h), at most a week.
@@ -74,6 +76,19 @@ def make_breaks(rng: np.random.Generator, winters: int = 30, days: int = 120) ->
     )
 
 
+def make_pumps(rng: np.random.Generator, n: int = 400) -> pd.DataFrame:
+    """Booster pump lives (Weibull wear-out); pumps installed later are still running."""
+    life = 9000.0 * rng.weibull(1.8, n)
+    observed_for = rng.uniform(2000.0, 20000.0, n)  # hours since installation at cut-off
+    still_running = life > observed_for
+    return pd.DataFrame({
+        "pump_id": [f"P{i:04d}" for i in range(1, n + 1)],
+        "station": rng.choice([f"S{i}" for i in range(1, 9)], n),
+        "hours": np.round(np.minimum(life, observed_for), 1),
+        "still_running": still_running.astype(int),
+    })
+
+
 KNOTS = """\
 # Wait for a spare part (hours), drawn by the network engineer.
 # x: hours, p: probability the wait is at most x. A flat stretch carries no probability;
@@ -86,11 +101,13 @@ p: [0, 0.25, 0.55, 0.8, 0.9, 0.9, 0.97, 0.99, 1.0]
 def main(force: bool = False) -> None:
     DATA.mkdir(exist_ok=True)
     rng = np.random.default_rng(SEED)
-    repairs, breaks = rng.spawn(2)
+    repairs, breaks, pumps = rng.spawn(3)
     if force or not (DATA / "repairs.csv").exists():
         make_repairs(repairs).to_csv(DATA / "repairs.csv", index=False)
     if force or not (DATA / "breaks.parquet").exists():
         make_breaks(breaks).to_parquet(DATA / "breaks.parquet", index=False)
+    if force or not (DATA / "pumps.csv").exists():
+        make_pumps(pumps).to_csv(DATA / "pumps.csv", index=False)
     if force or not (DATA / "spare_part_wait.yaml").exists():
         (DATA / "spare_part_wait.yaml").write_text(KNOTS)
 

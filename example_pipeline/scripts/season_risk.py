@@ -2,8 +2,14 @@
 """Monte Carlo of a winter season for Northvale Water's repair crews (invented scenario).
 
 Reads the selected samplers (verified on load), simulates ``n_seasons`` seasons and writes risk
-figures: crew-hour demand against capacity, restoration times, and season cost quantiles. All
-randomness comes from one root seed through named streams, so the figures are reproducible.
+figures: crew-hour demand against capacity (main breaks and booster pump failures), restoration
+times, and season cost quantiles. All randomness comes from one root seed through named streams,
+so the figures are reproducible.
+
+Model per season: breaks per district-day from ``daily_breaks``; each break takes repair hours
+from ``repair_hours`` (crew-hours) at a cost per crew-hour from ``crew_hour_cost``; a share of
+breaks waits for a spare part (``spare_part_wait``, elapsed time, not crew time); each booster
+pump (new at the season start) fails after ``pump_life`` hours, adding a fixed repair job.
 """
 
 from __future__ import annotations
@@ -22,6 +28,7 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
     cost = sw.load_sampler(args.cost)
     breaks = sw.load_sampler(args.breaks)
     wait = sw.load_sampler(args.wait)
+    pumps = sw.load_sampler(args.pumps)
     seed = int(cfg["seed"])
     n_seasons, days, districts = int(cfg["n_seasons"]), int(cfg["days"]), int(cfg["districts"])
     capacity = float(cfg["crews"]) * float(cfg["crew_hours_per_day"])
@@ -42,6 +49,15 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
 
     demand = np.bincount(day_of_job, weights=hours, minlength=n_seasons * days)
     demand = demand.reshape(n_seasons, days)
+    # booster pumps, modelled as new at the start of the season: a failure on day d adds a
+    # fixed repair job to that day's crew-hours
+    n_pumps = int(cfg["booster_pumps"])
+    pump_life = pumps.draw((n_seasons, n_pumps), rng=sw.stream_rng(seed, "pump_life"))
+    fail_day = np.floor(pump_life / 24.0).astype(np.int64)
+    failed = fail_day < days
+    rows = np.repeat(np.arange(n_seasons), n_pumps).reshape(n_seasons, n_pumps)[failed]
+    np.add.at(demand, (rows, fail_day[failed]), float(cfg["pump_repair_crew_hours"]))
+    pump_failures = failed.sum(axis=1)
     overload_days = (demand > capacity).sum(axis=1)
     season_of_job = day_of_job // days
     season_cost = np.bincount(season_of_job, weights=hours * rate, minlength=n_seasons)
@@ -59,6 +75,7 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
                 ("crew_hour_cost", args.cost),
                 ("daily_breaks", args.breaks),
                 ("spare_part_wait", args.wait),
+                ("pump_life", args.pumps),
             )
         },
         "chosen_methods": {
@@ -66,9 +83,11 @@ def simulate(args: argparse.Namespace, cfg: dict) -> dict:
             "crew_hour_cost": cost.method,
             "daily_breaks": breaks.method,
             "spare_part_wait": wait.method,
+            "pump_life": pumps.method,
         },
         "breaks_per_season_mean": float(per_day.sum(axis=1).mean()),
         "crew_hour_capacity_per_day": capacity,
+        "pump_failures_per_season_mean": float(pump_failures.mean()),
         "daily_demand_p99_crew_hours": float(np.quantile(demand, 0.99)),
         "prob_any_overload_day": float(np.mean(overload_days > 0)),
         "overload_days_mean": float(overload_days.mean()),
@@ -114,7 +133,7 @@ def plot(result: dict, path: str) -> None:
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__)
-    for name in ("repair", "cost", "breaks", "wait", "settings", "out", "plot"):
+    for name in ("repair", "cost", "breaks", "wait", "pumps", "settings", "out", "plot"):
         ap.add_argument(f"--{name}", required=True)
     args = ap.parse_args()
     result = simulate(args, json.loads(args.settings))

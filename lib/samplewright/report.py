@@ -92,18 +92,25 @@ def _auto_table(auto: dict[str, Any]) -> list[str]:
     return lines
 
 
-def _ks_distance(sampler: Sampler, x: np.ndarray) -> float:
-    """sup |F_n - F| over the line, exact for continuous, discrete and mixed models.
+def _ks_distance(sampler: Sampler, x: np.ndarray, reference: Sampler | None = None) -> float:
+    """sup |F_ref - F| over the line, exact for continuous, discrete and mixed models.
 
-    Both step functions jump only at data values (F_n) or at the model's atoms; comparing at
-    every distinct data value v and at its left limit v- (F(v-) by the next float below) gives
-    the supremum for models whose atoms sit at data values, and the usual statistic otherwise.
+    ``F_ref`` is the data's ECDF (or ``reference``: a weighted ECDF, or the Kaplan–Meier estimate
+    for censored data). Both functions are compared at every distinct data value v and at its
+    left limit v- (taken at the next float below v), which gives the supremum whenever the
+    model's atoms sit at data values, and the usual statistic for a continuous model.
     """
-    values, counts = np.unique(x, return_counts=True)
-    fn = np.cumsum(counts) / x.size
-    fn_left = np.concatenate([[0.0], fn[:-1]])
+    values = np.unique(x)
+    below = np.nextafter(values, -np.inf)
+    if reference is None:
+        counts = np.unique(x, return_counts=True)[1]
+        fn = np.cumsum(counts) / x.size
+        fn_left = np.concatenate([[0.0], fn[:-1]])
+    else:
+        fn = np.asarray(reference.cdf(values), dtype=np.float64)
+        fn_left = np.asarray(reference.cdf(below), dtype=np.float64)
     f = np.asarray(sampler.cdf(values), dtype=np.float64)
-    f_left = np.asarray(sampler.cdf(np.nextafter(values, -np.inf)), dtype=np.float64)
+    f_left = np.asarray(sampler.cdf(below), dtype=np.float64)
     return float(max(np.max(np.abs(fn - f)), np.max(np.abs(fn_left - f_left))))
 
 
@@ -120,15 +127,37 @@ def _label(s: Sampler) -> str:
     return f"{s.method} ({family})" if family and family != s.method else s.method
 
 
-def check_candidates(x: np.ndarray, samplers: Sequence[Sampler]) -> list[dict[str, Any]]:
+def check_candidates(
+    x: np.ndarray,
+    samplers: Sequence[Sampler],
+    *,
+    weights: np.ndarray | None = None,
+    censored: np.ndarray | None = None,
+) -> list[dict[str, Any]]:
     """Compare each candidate with the data: distance, moments, quantiles, the tail beyond the
     data, and the diagnostics the fit recorded (threshold scans, dispersion, rankings).
 
     ``ks`` is the Kolmogorov–Smirnov distance sup |F_n - F| (no p-value: parameters were
     estimated from the same data; method ``auto`` records bootstrap p-values). Non-finite values
-    (an infinite mean of a heavy tail) are written as null.
+    (an infinite mean of a heavy tail) are written as null. With weights the data side is the
+    weighted ECDF; with right-censored values it is the Kaplan–Meier estimate (censored values
+    are not observations of the variable itself).
     """
-    data_q = np.quantile(x, _PROBS)
+    reference: Sampler | None = None
+    if censored is not None and np.any(censored):
+        from .censoring import fit_kaplan_meier
+
+        reference = fit_kaplan_meier(x, censored, weights=weights)
+    elif weights is not None:
+        from .samplers import EmpiricalSampler
+
+        reference = EmpiricalSampler(x, weights)
+    if reference is None:
+        data_q = np.quantile(x, _PROBS)
+        data_mean, data_sd = float(np.mean(x)), float(np.std(x))
+    else:
+        data_q = np.asarray(reference.quantile(np.asarray(_PROBS)), dtype=np.float64)
+        data_mean, data_sd = float(reference.mean), float(reference.sd)
     top = float(np.max(x))
     rows = []
     for s in samplers:
@@ -138,11 +167,11 @@ def check_candidates(x: np.ndarray, samplers: Sequence[Sampler]) -> list[dict[st
         rows.append(
             {
                 "method": _label(s),
-                "ks": _ks_distance(s, x),
+                "ks": _ks_distance(s, x, reference),
                 "mean": _finite_or_none(s.mean),
-                "data_mean": float(np.mean(x)),
+                "data_mean": data_mean,
                 "sd": _finite_or_none(s.sd),
-                "data_sd": float(np.std(x)),
+                "data_sd": data_sd,
                 "quantiles": {
                     f"p{p * 100:g}": _finite_or_none(v) for p, v in zip(_PROBS, q, strict=True)
                 },
@@ -163,11 +192,14 @@ def _fmt(v: Any, spec: str = ".4g") -> str:
     return "-" if v is None else format(v, spec)
 
 
-def _markdown(dataset: str, n: int, rows: list[dict[str, Any]]) -> list[str]:
+def _markdown(dataset: str, n: int, rows: list[dict[str, Any]], n_censored: int = 0) -> list[str]:
+    against = ("the Kaplan–Meier estimate (data values in brackets are Kaplan–Meier too)"
+               if n_censored else "the data's ECDF")
     md = [
         f"# Check: {dataset}",
         "",
-        f"{n} observations. KS is the largest gap between the data's ECDF and the model's CDF.",
+        f"{n} observations" + (f", {n_censored} right-censored" if n_censored else "")
+        + f". KS is the largest gap between {against} and the model's CDF.",
         "",
         "| method | KS distance | mean (data) | p99 (data) | p99.9 (data) | P(X > data max) "
         "| AIC |",
@@ -229,11 +261,20 @@ def write_check(
 
     data, _ = read_data(data_path, column)
     samplers = [load_sampler(c) for c in candidates]
-    rows = check_candidates(data.values, samplers)
-    doc = {"dataset": dataset, "n_obs": data.n, "candidates": rows, "caution": CAUTION}
+    rows = check_candidates(data.values, samplers, weights=data.weights, censored=data.censored)
+    n_censored = int(np.sum(data.censored)) if data.censored is not None else 0
+    doc = {
+        "dataset": dataset,
+        "n_obs": data.n,
+        "n_censored": n_censored,
+        "reference": "kaplan_meier" if n_censored else
+        ("weighted_ecdf" if data.weights is not None else "ecdf"),
+        "candidates": rows,
+        "caution": CAUTION,
+    }
     out = Path(out)
     text = json.dumps(doc, indent=2, allow_nan=False) + "\n"
-    md = "\n".join(_markdown(dataset or str(data_path), data.n, rows))
+    md = "\n".join(_markdown(dataset or str(data_path), data.n, rows, n_censored))
     atomic_write(out, lambda tmp: Path(tmp).write_text(text))
     atomic_write(out.with_suffix(".md"), lambda tmp: Path(tmp).write_text(md))
     return doc

@@ -22,8 +22,8 @@ from .conftest import ROOT, dry, nothing_to_do, snakemake
 
 pytestmark = pytest.mark.pipeline
 
-DATA_FILES = ("repairs.csv", "breaks.parquet", "spare_part_wait.yaml")
-ALL_DATASETS = ("repair_hours", "crew_hour_cost", "daily_breaks", "spare_part_wait")
+DATA_FILES = ("repairs.csv", "breaks.parquet", "pumps.csv", "spare_part_wait.yaml")
+ALL_DATASETS = ("repair_hours", "crew_hour_cost", "daily_breaks", "pump_life", "spare_part_wait")
 
 
 def _dataset_chain(name: str) -> set[tuple[str, str]]:

@@ -22,7 +22,7 @@ import samplewright
 from .conftest import BASE_ARGS, BIN, SNAKEMAKE, copy_example
 
 pytestmark = [pytest.mark.pipeline, pytest.mark.slurm, pytest.mark.slow]
-DATA_FILES = ("repairs.csv", "breaks.parquet", "spare_part_wait.yaml")
+DATA_FILES = ("repairs.csv", "breaks.parquet", "pumps.csv", "spare_part_wait.yaml")
 
 
 def _cluster_ready() -> bool:

@@ -57,3 +57,21 @@ def test_write_check_is_strict_json_with_markdown(tmp_path: Path) -> None:
     assert json.loads(text) == json.loads(json.dumps(doc))
     md = out.with_suffix(".md").read_text()
     assert CAUTION in md and "tail threshold" in md
+
+
+def test_censored_check_compares_with_kaplan_meier() -> None:
+    """With censored data the check measures models against the Kaplan–Meier estimate."""
+    from lifelines.datasets import load_waltons
+
+    frame = load_waltons()  # source: lifelines' bundled Waltons fruit-fly lifetimes
+    x = frame["T"].to_numpy(dtype=float)
+    censored = frame["E"].to_numpy() == 0
+    km = sw.fit(x, "kaplan_meier", censored=censored)
+    weib = sw.fit(x, "weibull", censored=censored)
+    rows = check_candidates(x, [km, weib], censored=censored)
+    assert rows[0]["ks"] == pytest.approx(0.0, abs=1e-12)
+    assert rows[0]["data_mean"] == pytest.approx(km.mean)
+    # the naive ECDF of censored times would be a different reference
+    naive = check_candidates(x, [km])[0]["ks"]
+    assert naive > 0.0
+    assert 0.0 < rows[1]["ks"] < 0.5
