@@ -63,16 +63,18 @@ def _data_section(data: Any, n_obs: int) -> dict[str, Any]:
 # commands
 
 
+def _reading(args: argparse.Namespace) -> dict[str, Any]:
+    """The data-reading options every data command shares (see ``_add_data_args``)."""
+    return {
+        "weights": args.weights,
+        "censor": args.censor,
+        "missing": args.missing,
+        "infinite": args.infinite,
+    }
+
+
 def cmd_fingerprint(args: argparse.Namespace) -> int:
-    fp = fingerprint_file(
-        args.data,
-        args.column,
-        weights=args.weights,
-        censor=args.censor,
-        missing=args.missing,
-        infinite=args.infinite,
-        cache_dir=args.cache_dir,
-    )
+    fp = fingerprint_file(args.data, args.column, cache_dir=args.cache_dir, **_reading(args))
     if args.json_out:
         doc = json.dumps({"fingerprint": fp, "source": str(args.data), "column": args.column})
         atomic_write(Path(args.json_out), lambda tmp: Path(tmp).write_text(doc + "\n"))
@@ -93,14 +95,7 @@ def cmd_snapshot(args: argparse.Namespace) -> int:
     from .intake import read_column
     from .snapshots import write_snapshot
 
-    data = read_column(
-        args.data,
-        args.column,
-        weights=args.weights,
-        censor=args.censor,
-        missing=args.missing,
-        infinite=args.infinite,
-    )
+    data = read_column(args.data, args.column, **_reading(args))
     fp = fingerprint_column(data)
     _check_expected(f"column {args.column!r} in {args.data}", fp, args.expect_fingerprint)
     write_snapshot(data, args.out)
@@ -118,13 +113,7 @@ def cmd_fit(args: argparse.Namespace) -> int:
             f"{', '.join(known_methods())}"
         )
     data, snap = read_data(
-        args.data,
-        args.column,
-        weights=args.weights,
-        censor=args.censor,
-        missing=args.missing,
-        infinite=args.infinite,
-        min_rows=_method_minimum(args.method),
+        args.data, args.column, min_rows=_method_minimum(args.method), **_reading(args)
     )
     fp = fingerprint_column(data)
     _check_expected(str(args.data), fp, args.expect_fingerprint)
@@ -280,8 +269,7 @@ def cmd_select(args: argparse.Namespace) -> int:
 def cmd_check(args: argparse.Namespace) -> int:
     from .report import write_check
 
-    write_check(args.data, args.candidates, out=args.out, dataset=args.dataset,
-                column=args.column)
+    write_check(args.data, args.candidates, out=args.out, dataset=args.dataset, column=args.column)
     print(f"{args.out}: check written for {len(args.candidates)} candidate(s)")
     return 0
 

@@ -18,8 +18,9 @@ import hashlib
 import json
 import os
 import tempfile
+from collections.abc import Callable
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -102,6 +103,20 @@ class FingerprintCache:
         self.entries = _load_cache(self.path) if self.path is not None else {}
         self.dirty = False
 
+    def _memo(self, path: Path, what: list[Any], compute: Callable[[], str]) -> str:
+        """The cached fingerprint of ``what`` in ``path`` if its stat is unchanged, else
+        ``compute()`` (remembered only if the file did not change while it was read)."""
+        entry_key = json.dumps([str(path.resolve()), *what, FINGERPRINT_VERSION])
+        stat = _stat_key(path)
+        hit = self.entries.get(entry_key)
+        if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
+            return str(hit["fingerprint"])
+        fp = compute()
+        if _stat_key(path) == stat:
+            self.entries[entry_key] = {**stat, "fingerprint": fp}
+            self.dirty = True
+        return fp
+
     def fingerprint(
         self,
         path: str | Path,
@@ -112,45 +127,33 @@ class FingerprintCache:
         missing: Policy = "error",
         infinite: Policy = "error",
     ) -> str:
-        path = Path(path)
-        if not path.is_file():
-            from .intake import read_column
-
-            read_column(path, column)  # raises the standard "not found" error
-        entry_key = json.dumps(
-            [str(path.resolve()), column, weights, censor, missing, infinite, FINGERPRINT_VERSION]
-        )
-        stat = _stat_key(path)
-        hit = self.entries.get(entry_key)
-        if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
-            return str(hit["fingerprint"])
+        """Fingerprint of a column of a data file (see :func:`fingerprint_file`)."""
         from .intake import read_column
 
-        data = read_column(
-            path, column, weights=weights, censor=censor, missing=missing, infinite=infinite
-        )
-        fp = fingerprint_column(data)
-        if _stat_key(path) == stat:  # unchanged while we read it
-            self.entries[entry_key] = {**stat, "fingerprint": fp}
-            self.dirty = True
-        return fp
+        path = Path(path)
+        if not path.is_file():
+            read_column(path, column)  # raises the standard "not found" error
+
+        def compute() -> str:
+            return fingerprint_column(
+                read_column(
+                    path, column, weights=weights, censor=censor, missing=missing, infinite=infinite
+                )
+            )
+
+        return self._memo(path, [column, weights, censor, missing, infinite], compute)
 
     def fingerprint_knots(self, path: str | Path) -> str:
         """Fingerprint of a user-drawn CDF file (its knots x then p), memoised the same way."""
-        path = Path(path)
-        entry_key = json.dumps([str(path.resolve()), "<knots>", FINGERPRINT_VERSION])
-        stat = _stat_key(path)
-        hit = self.entries.get(entry_key)
-        if hit is not None and all(hit.get(k) == v for k, v in stat.items()):
-            return str(hit["fingerprint"])
         from .fitting import read_knots
 
-        knots = read_knots(path)
-        fp = fingerprint_arrays(np.concatenate([knots.x, knots.p]))
-        if _stat_key(path) == stat:
-            self.entries[entry_key] = {**stat, "fingerprint": fp}
-            self.dirty = True
-        return fp
+        path = Path(path)
+
+        def compute() -> str:
+            knots = read_knots(path)
+            return fingerprint_arrays(np.concatenate([knots.x, knots.p]))
+
+        return self._memo(path, ["<knots>"], compute)
 
     def save(self) -> None:
         """Write the memo if anything was added (merging with entries written meanwhile)."""

@@ -67,26 +67,31 @@ def format_show(path: Any, sampler: Sampler, meta: dict[str, Any]) -> str:
     return "\n".join(lines)
 
 
-def _num(v: Any, fmt: str = ".4g") -> str:
-    return "-" if v is None else format(v, fmt)
+def _fmt(v: Any, spec: str = ".4g") -> str:
+    """``v`` formatted, or "-" for a missing value."""
+    return "-" if v is None else format(v, spec)
 
 
 def _auto_table(auto: dict[str, Any]) -> list[str]:
     """The candidate ranking of method 'auto' as aligned text."""
-    lines = [f"  candidates   ranked by {auto['rule']}; p-values from {auto['n_resamples']} "
-             "parametric-bootstrap refits",
-             f"    {'#':>2} {'family':<18} {'loglik':>11} {'AIC':>11} {'BIC':>11} "
-             f"{'KS':>7} {'p':>5} {'AD':>7} {'p':>5} {'CvM':>7} {'p':>5}"]
+    lines = [
+        f"  candidates   ranked by {auto['rule']}; p-values from {auto['n_resamples']} "
+        "parametric-bootstrap refits",
+        f"    {'#':>2} {'family':<18} {'loglik':>11} {'AIC':>11} {'BIC':>11} "
+        f"{'KS':>7} {'p':>5} {'AD':>7} {'p':>5} {'CvM':>7} {'p':>5}",
+    ]
     for row in auto["ranking"]:
         if row.get("error"):
             lines.append(f"    {row['rank']:>2} {row['family']:<18} failed: {row['error']}")
             continue
         st, pv = row.get("statistics") or {}, row.get("pvalues") or {}
         lines.append(
-            f"    {row['rank']:>2} {row['family']:<18} {_num(row['loglik'], '11.2f')} "
-            f"{_num(row['aic'], '11.2f')} {_num(row['bic'], '11.2f')} "
-            + " ".join(f"{_num(st.get(k), '7.4f')} {_num(pv.get(k), '5.3f')}"
-                       for k in ("ks", "ad", "cvm")))
+            f"    {row['rank']:>2} {row['family']:<18} {_fmt(row['loglik'], '11.2f')} "
+            f"{_fmt(row['aic'], '11.2f')} {_fmt(row['bic'], '11.2f')} "
+            + " ".join(
+                f"{_fmt(st.get(k), '7.4f')} {_fmt(pv.get(k), '5.3f')}" for k in ("ks", "ad", "cvm")
+            )
+        )
     if auto.get("poor_fit"):
         lines.append("  WARNING      the chosen family fails a goodness-of-fit test at p < 0.01")
     return lines
@@ -188,17 +193,17 @@ def check_candidates(
     return rows
 
 
-def _fmt(v: Any, spec: str = ".4g") -> str:
-    return "-" if v is None else format(v, spec)
-
-
 def _markdown(dataset: str, n: int, rows: list[dict[str, Any]], n_censored: int = 0) -> list[str]:
-    against = ("the Kaplan–Meier estimate (data values in brackets are Kaplan–Meier too)"
-               if n_censored else "the data's ECDF")
+    against = (
+        "the Kaplan–Meier estimate (data values in brackets are Kaplan–Meier too)"
+        if n_censored
+        else "the data's ECDF"
+    )
     md = [
         f"# Check: {dataset}",
         "",
-        f"{n} observations" + (f", {n_censored} right-censored" if n_censored else "")
+        f"{n} observations"
+        + (f", {n_censored} right-censored" if n_censored else "")
         + f". KS is the largest gap between {against} and the model's CDF.",
         "",
         "| method | KS distance | mean (data) | p99 (data) | p99.9 (data) | P(X > data max) "
@@ -217,27 +222,46 @@ def _markdown(dataset: str, n: int, rows: list[dict[str, Any]], n_censored: int 
         if "dispersion" in diag:
             md += ["", f"**{r['method']}**, dispersion: {diag['dispersion'].get('message')}"]
         if "auto" in diag:
-            md += ["", f"**{r['method']}**, candidates by {diag['auto']['rule']}:", "",
-                   "| family | AIC | KS p | AD p | CvM p |", "|---|---|---|---|---|"]
+            md += [
+                "",
+                f"**{r['method']}**, candidates by {diag['auto']['rule']}:",
+                "",
+                "| family | AIC | KS p | AD p | CvM p |",
+                "|---|---|---|---|---|",
+            ]
             for row in diag["auto"]["ranking"]:
                 pv = row.get("pvalues") or {}
-                md.append(f"| {row['family']} | {_fmt(row.get('aic'), '.2f')} | "
-                          + " | ".join(_fmt(pv.get(k), ".3f") for k in ("ks", "ad", "cvm"))
-                          + " |")
+                md.append(
+                    f"| {row['family']} | {_fmt(row.get('aic'), '.2f')} | "
+                    + " | ".join(_fmt(pv.get(k), ".3f") for k in ("ks", "ad", "cvm"))
+                    + " |"
+                )
         if "threshold_choice" in diag:
             tc = diag["threshold_choice"]
-            md += ["", f"**{r['method']}**, tail threshold {_fmt(tc.get('threshold'))} "
-                       f"(rule: {tc.get('rule')}, {tc.get('n_exceedances')} exceedances).", "",
-                   "| threshold (quantile) | mean excess | exceedances | tail shape xi (se) |",
-                   "|---|---|---|---|"]
+            md += [
+                "",
+                f"**{r['method']}**, tail threshold {_fmt(tc.get('threshold'))} "
+                f"(rule: {tc.get('rule')}, {tc.get('n_exceedances')} exceedances).",
+                "",
+                "| threshold (quantile) | mean excess | exceedances | tail shape xi (se) |",
+                "|---|---|---|---|",
+            ]
             me = diag.get("mean_excess") or {}
             stab = diag.get("parameter_stability") or {}
-            xi_at = dict(zip(stab.get("threshold", []),
-                             zip(stab.get("xi", []), stab.get("xi_se", []), strict=False),
-                             strict=False))
-            for u, p, e, k in zip(me.get("threshold", []), me.get("probability", []),
-                                  me.get("mean_excess", []), me.get("n_exceedances", []),
-                                  strict=False):
+            xi_at = dict(
+                zip(
+                    stab.get("threshold", []),
+                    zip(stab.get("xi", []), stab.get("xi_se", []), strict=False),
+                    strict=False,
+                )
+            )
+            for u, p, e, k in zip(
+                me.get("threshold", []),
+                me.get("probability", []),
+                me.get("mean_excess", []),
+                me.get("n_exceedances", []),
+                strict=False,
+            ):
                 xi, se = xi_at.get(u, (None, None))
                 shape = "-" if xi is None else f"{xi:.3f} ({_fmt(se, '.3f')})"
                 md.append(f"| {_fmt(u)} ({p:g}) | {_fmt(e)} | {k} | {shape} |")
@@ -267,8 +291,9 @@ def write_check(
         "dataset": dataset,
         "n_obs": data.n,
         "n_censored": n_censored,
-        "reference": "kaplan_meier" if n_censored else
-        ("weighted_ecdf" if data.weights is not None else "ecdf"),
+        "reference": "kaplan_meier"
+        if n_censored
+        else ("weighted_ecdf" if data.weights is not None else "ecdf"),
         "candidates": rows,
         "caution": CAUTION,
     }
