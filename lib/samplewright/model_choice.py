@@ -7,8 +7,9 @@ Goodness of fit does not choose, it informs: for each candidate the Kolmogorov�
 Anderson–Darling and Cramér–von Mises statistics are recorded with p-values from a parametric
 bootstrap that refits the family on every replicate (``n_resamples``, default 99; 0 turns it
 off). The bootstrap's random stream comes from ``seed`` (default 0), so the same data always give
-the same artifact. A chosen family whose bootstrap p-value is below 0.01 on any statistic is
-flagged in the record (``poor_fit``): the best of a poor set is still a poor model.
+the same artifact. A chosen family whose bootstrap p-value is at most 0.01 on any statistic is
+flagged in the record (``poor_fit``): the best of a poor set is still a poor model. (The
+smallest attainable p-value is 1 / (1 + n_resamples), so the flag needs n_resamples >= 99.)
 
 Default candidates, by the data: non-negative integers -> poisson, negative_binomial, geometric;
 all values > 0 -> lognormal, gamma, weibull, exponential, inverse_gaussian; otherwise -> normal,
@@ -97,7 +98,7 @@ def fit_auto(x: np.ndarray, w: np.ndarray | None, censored: np.ndarray | None,
             "pvalues": {k: _finite(v) for k, v in c.pvalues.items()},
             "error": c.error,
         })
-    poor = bool(best.pvalues) and min(best.pvalues.values()) < POOR_FIT_P
+    poor = bool(best.pvalues) and min(best.pvalues.values()) <= POOR_FIT_P
     sampler = ParametricSampler(best.family, dict(best.params), loglik=best.loglik,
                                 aic=best.aic, bic=best.bic, method="auto")
     diagnostics: dict[str, Any] = {

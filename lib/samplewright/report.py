@@ -93,7 +93,7 @@ def _auto_table(auto: dict[str, Any]) -> list[str]:
             )
         )
     if auto.get("poor_fit"):
-        lines.append("  WARNING      the chosen family fails a goodness-of-fit test at p < 0.01")
+        lines.append("  WARNING      the chosen family fails a goodness-of-fit test at p <= 0.01")
     return lines
 
 

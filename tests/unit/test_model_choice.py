@@ -101,3 +101,14 @@ def test_show_prints_the_ranking(tmp_path: Path, capsys: pytest.CaptureFixture) 
     for fam in meta["diagnostics"]["auto"]["candidates"]:
         assert fam in shown
     assert "parametric-bootstrap" in shown
+
+
+def test_poor_fit_is_flagged_when_every_candidate_is_rejected() -> None:
+    """A clearly wrong candidate set is flagged poor_fit at the default 99 resamples."""
+    # Generated bimodal data (two normals 10 sd apart); common practice, no source.
+    rng = np.random.default_rng(8)
+    x = np.concatenate([rng.normal(5.0, 1.0, 300), rng.normal(15.0, 1.0, 300)])
+    s = sw.fit(x, method="auto", candidates=["exponential", "rayleigh"])
+    assert s.diagnostics["auto"]["poor_fit"] is True
+    good = sw.fit(_gamma_data(), method="auto", candidates=["gamma"])
+    assert good.diagnostics["auto"]["poor_fit"] is False
