@@ -246,7 +246,9 @@ def gamma_shape(s: float) -> float:
         f = np.log(k) - special.digamma(k) - s
         if abs(f) < best_f:
             best_k, best_f = k, abs(f)
-        df = 1.0 / k - special.polygamma(1, k)
+        # trigamma: special.polygamma(1, k) is 1.0 * gamma(2.0) * zeta(2, k) = zeta(2, k)
+        # exactly, through a slower Python wrapper
+        df = 1.0 / k - special.zeta(2.0, k)
         k_new = k - f / df
         if k_new <= 0:
             k_new = k / 2.0
@@ -272,8 +274,8 @@ def weibull_shape_scale(y: np.ndarray, w: np.ndarray, e: np.ndarray) -> tuple[fl
     mean_lz = float(np.sum(e * lz)) / r
 
     def score(k: float) -> float:
-        ez = np.exp(k * lz)
-        return float(1.0 / k + mean_lz - np.sum(w * ez * lz) / np.sum(w * ez))
+        wez = w * np.exp(k * lz)  # the array methods: the same sums without np.sum's dispatch
+        return float(1.0 / k + mean_lz - (wez * lz).sum() / wez.sum())
 
     lo, hi = 1e-3, 1.0
     while score(hi) > 0:

@@ -102,6 +102,65 @@ class FitOutcome:
         return self.n_params * float(np.log(self.n_obs)) - 2.0 * self.loglik
 
 
+class _Scipy:
+    """How a family maps to scipy: the distribution and its keyword arguments for given params.
+
+    Calling it freezes the distribution (``dist(**kwargs(p))``); :meth:`Family.bound` uses the
+    parts to call scipy's unfrozen methods instead.
+    """
+
+    __slots__ = ("dist", "kwargs")
+
+    def __init__(self, dist: Any, kwargs: Callable[[Params], dict[str, Any]]) -> None:
+        self.dist = dist
+        self.kwargs = kwargs
+
+    def __call__(self, p: Params) -> Any:
+        return self.dist(**self.kwargs(p))
+
+
+class _Bound:
+    """A scipy distribution with its parameters bound but not frozen.
+
+    Each method is the frozen distribution's: ``dist.method(x, **kwargs)``, the very call a
+    frozen distribution makes, so the numbers are the same. Freezing builds a new distribution
+    instance (with its docstrings), about half a millisecond, which dominated refits in loops.
+    """
+
+    __slots__ = ("dist", "kw")
+
+    def __init__(self, dist: Any, kw: dict[str, Any]) -> None:
+        self.dist = dist
+        self.kw = kw
+
+    def cdf(self, x: Any) -> Any:
+        return self.dist.cdf(x, **self.kw)
+
+    def sf(self, x: Any) -> Any:
+        return self.dist.sf(x, **self.kw)
+
+    def ppf(self, q: Any) -> Any:
+        return self.dist.ppf(q, **self.kw)
+
+    def pdf(self, x: Any) -> Any:
+        return self.dist.pdf(x, **self.kw)
+
+    def logpdf(self, x: Any) -> Any:
+        return self.dist.logpdf(x, **self.kw)
+
+    def logsf(self, x: Any) -> Any:
+        return self.dist.logsf(x, **self.kw)
+
+    def pmf(self, k: Any) -> Any:
+        return self.dist.pmf(k, **self.kw)
+
+    def logpmf(self, k: Any) -> Any:
+        return self.dist.logpmf(k, **self.kw)
+
+    def support(self) -> Any:
+        return self.dist.support(**self.kw)
+
+
 @dataclass(frozen=True)
 class Family:
     """One parametric family: how to freeze it in scipy, fit it, and draw from it fast."""
@@ -122,6 +181,19 @@ class Family:
     def frozen(self, params: Mapping[str, float]) -> Any:
         """The scipy frozen distribution for these parameters."""
         return self._freeze(dict(params))
+
+    def bound(self, params: Mapping[str, float]) -> Any:
+        """The distribution for these parameters for repeated evaluation, without freezing.
+
+        Offers ``cdf``, ``sf``, ``ppf``, ``pdf``, ``logpdf``, ``logsf``, ``pmf``, ``logpmf`` and
+        ``support`` with the same results as :meth:`frozen`'s (scipy's unfrozen methods with the
+        parameters passed explicitly); a family registered without that mapping gets
+        :meth:`frozen`.
+        """
+        f = self._freeze
+        if isinstance(f, _Scipy):
+            return _Bound(f.dist, f.kwargs(dict(params)))
+        return self.frozen(params)
 
     def draw(
         self, params: Mapping[str, float], size: int | tuple[int, ...], rng: np.random.Generator
@@ -688,7 +760,7 @@ _register(
         positive=False,
         discrete=False,
         min_obs=2,
-        _freeze=lambda p: stats.norm(loc=p["mu"], scale=p["sigma"]),
+        _freeze=_Scipy(stats.norm, lambda p: dict(loc=p["mu"], scale=p["sigma"])),
         _fit=_fit_normal,
         _draw=lambda p, size, rng: rng.normal(p["mu"], p["sigma"], size),
         _kinds={"mu": ("real", "sigma"), "sigma": _LOG},
@@ -698,7 +770,7 @@ _positive(
     "lognormal",
     ("mu", "sigma", "loc"),
     _fit0_lognormal,
-    lambda p: stats.lognorm(s=p["sigma"], loc=p["loc"], scale=np.exp(p["mu"])),
+    _Scipy(stats.lognorm, lambda p: dict(s=p["sigma"], loc=p["loc"], scale=np.exp(p["mu"]))),
     # exp of a scaled standard normal: same law as rng.lognormal, about 30 % faster
     lambda p, size, rng: np.exp(rng.standard_normal(size) * p["sigma"] + p["mu"]) + p["loc"],
     {"mu": ("real", "sigma"), "sigma": _LOG},
@@ -707,7 +779,7 @@ _positive(
     "exponential",
     ("scale", "loc"),
     _fit0_exponential,
-    lambda p: stats.expon(loc=p["loc"], scale=p["scale"]),
+    _Scipy(stats.expon, lambda p: dict(loc=p["loc"], scale=p["scale"])),
     lambda p, size, rng: rng.exponential(p["scale"], size) + p["loc"],
     {"scale": _LOG},
     strict=False,
@@ -718,7 +790,7 @@ _positive(
     "gamma",
     ("shape", "scale", "loc"),
     _fit0_gamma,
-    lambda p: stats.gamma(a=p["shape"], loc=p["loc"], scale=p["scale"]),
+    _Scipy(stats.gamma, lambda p: dict(a=p["shape"], loc=p["loc"], scale=p["scale"])),
     lambda p, size, rng: rng.gamma(p["shape"], p["scale"], size) + p["loc"],
     {"shape": _LOG, "scale": _LOG},
 )
@@ -726,7 +798,7 @@ _positive(
     "weibull",
     ("shape", "scale", "loc"),
     _fit0_weibull,
-    lambda p: stats.weibull_min(c=p["shape"], loc=p["loc"], scale=p["scale"]),
+    _Scipy(stats.weibull_min, lambda p: dict(c=p["shape"], loc=p["loc"], scale=p["scale"])),
     lambda p, size, rng: p["scale"] * rng.weibull(p["shape"], size) + p["loc"],
     {"shape": _LOG, "scale": _LOG},
     cens=_cens_weibull,
@@ -738,7 +810,7 @@ _register(
         positive=False,
         discrete=False,
         min_obs=2,
-        _freeze=lambda p: stats.gumbel_r(loc=p["mu"], scale=p["beta"]),
+        _freeze=_Scipy(stats.gumbel_r, lambda p: dict(loc=p["mu"], scale=p["beta"])),
         _fit=_fit_gumbel,
         _draw=lambda p, size, rng: rng.gumbel(p["mu"], p["beta"], size),
         _kinds={"mu": ("real", "beta"), "beta": _LOG},
@@ -751,7 +823,7 @@ _register(
         positive=False,
         discrete=False,
         min_obs=2,
-        _freeze=lambda p: stats.logistic(loc=p["mu"], scale=p["s"]),
+        _freeze=_Scipy(stats.logistic, lambda p: dict(loc=p["mu"], scale=p["s"])),
         _fit=_fit_logistic,
         _draw=lambda p, size, rng: rng.logistic(p["mu"], p["s"], size),
         _kinds={"mu": ("real", "s"), "s": _LOG},
@@ -761,7 +833,7 @@ _positive(
     "loglogistic",
     ("alpha", "beta", "loc"),
     _fit0_loglogistic,
-    lambda p: stats.fisk(c=p["beta"], loc=p["loc"], scale=p["alpha"]),
+    _Scipy(stats.fisk, lambda p: dict(c=p["beta"], loc=p["loc"], scale=p["alpha"])),
     lambda p, size, rng: p["alpha"] * np.exp(rng.logistic(0.0, 1.0 / p["beta"], size)) + p["loc"],
     {"alpha": _LOG, "beta": _LOG},
 )
@@ -769,7 +841,7 @@ _positive(
     "pareto",
     ("alpha", "xm", "loc"),
     _fit0_pareto,
-    lambda p: stats.pareto(b=p["alpha"], loc=p["loc"], scale=p["xm"]),
+    _Scipy(stats.pareto, lambda p: dict(b=p["alpha"], loc=p["loc"], scale=p["xm"])),
     lambda p, size, rng: p["xm"] * (rng.pareto(p["alpha"], size) + 1.0) + p["loc"],
     {"alpha": _LOG},
     cens=_cens_pareto,
@@ -779,7 +851,7 @@ _positive(
     "generalized_pareto",
     ("xi", "sigma", "loc"),
     _fit0_gpd,
-    lambda p: stats.genpareto(c=p["xi"], loc=p["loc"], scale=p["sigma"]),
+    _Scipy(stats.genpareto, lambda p: dict(c=p["xi"], loc=p["loc"], scale=p["sigma"])),
     _gpd_draw,
     {"xi": ("real", 1.0), "sigma": _LOG},
     strict=False,
@@ -793,7 +865,7 @@ _register(
         positive=False,
         discrete=False,
         min_obs=3,
-        _freeze=lambda p: stats.genextreme(c=-p["xi"], loc=p["mu"], scale=p["sigma"]),
+        _freeze=_Scipy(stats.genextreme, lambda p: dict(c=-p["xi"], loc=p["mu"], scale=p["sigma"])),
         _fit=_fit_gev,
         _draw=_gev_draw,
         _valid=lambda p: p["xi"] >= -1.0,
@@ -807,8 +879,11 @@ _register(
         positive=False,
         discrete=False,
         min_obs=2,
-        _freeze=lambda p: stats.beta(
-            a=p["alpha"], b=p["beta"], loc=p["lower"], scale=p["upper"] - p["lower"]
+        _freeze=_Scipy(
+            stats.beta,
+            lambda p: dict(
+                a=p["alpha"], b=p["beta"], loc=p["lower"], scale=p["upper"] - p["lower"]
+            ),
         ),
         _fit=_fit_beta,
         _draw=lambda p, size, rng: (
@@ -826,7 +901,9 @@ _register(
         positive=False,
         discrete=False,
         min_obs=2,
-        _freeze=lambda p: stats.uniform(loc=p["lower"], scale=p["upper"] - p["lower"]),
+        _freeze=_Scipy(
+            stats.uniform, lambda p: dict(loc=p["lower"], scale=p["upper"] - p["lower"])
+        ),
         _fit=_fit_uniform,
         _draw=lambda p, size, rng: rng.uniform(p["lower"], p["upper"], size),
         _fixed=lambda o: frozenset(k for k in ("lower", "upper") if k in o),
@@ -840,10 +917,13 @@ _register(
         positive=False,
         discrete=False,
         min_obs=3,
-        _freeze=lambda p: stats.triang(
-            c=(p["mode"] - p["lower"]) / (p["upper"] - p["lower"]),
-            loc=p["lower"],
-            scale=p["upper"] - p["lower"],
+        _freeze=_Scipy(
+            stats.triang,
+            lambda p: dict(
+                c=(p["mode"] - p["lower"]) / (p["upper"] - p["lower"]),
+                loc=p["lower"],
+                scale=p["upper"] - p["lower"],
+            ),
         ),
         _fit=_fit_triangular,
         _draw=lambda p, size, rng: rng.triangular(p["lower"], p["mode"], p["upper"], size),
@@ -855,7 +935,9 @@ _positive(
     "inverse_gaussian",
     ("mu", "lambda", "loc"),
     _fit0_inverse_gaussian,
-    lambda p: stats.invgauss(mu=p["mu"] / p["lambda"], loc=p["loc"], scale=p["lambda"]),
+    _Scipy(
+        stats.invgauss, lambda p: dict(mu=p["mu"] / p["lambda"], loc=p["loc"], scale=p["lambda"])
+    ),
     lambda p, size, rng: rng.wald(p["mu"], p["lambda"], size) + p["loc"],
     {"mu": _LOG, "lambda": _LOG},
 )
@@ -866,7 +948,7 @@ _register(
         positive=False,
         discrete=False,
         min_obs=3,
-        _freeze=lambda p: stats.t(df=p["nu"], loc=p["mu"], scale=p["sigma"]),
+        _freeze=_Scipy(stats.t, lambda p: dict(df=p["nu"], loc=p["mu"], scale=p["sigma"])),
         _fit=_fit_student_t,
         _draw=lambda p, size, rng: p["mu"] + p["sigma"] * rng.standard_t(p["nu"], size),
         _kinds={"mu": ("real", "sigma"), "sigma": _LOG, "nu": _LOG},
@@ -877,7 +959,7 @@ _positive(
     "rayleigh",
     ("sigma", "loc"),
     _fit0_rayleigh,
-    lambda p: stats.rayleigh(loc=p["loc"], scale=p["sigma"]),
+    _Scipy(stats.rayleigh, lambda p: dict(loc=p["loc"], scale=p["sigma"])),
     lambda p, size, rng: rng.rayleigh(p["sigma"], size) + p["loc"],
     {"sigma": _LOG},
     strict=False,
@@ -891,7 +973,7 @@ _register(
         positive=False,
         discrete=True,
         min_obs=1,
-        _freeze=lambda p: stats.poisson(mu=p["lambda"]),
+        _freeze=_Scipy(stats.poisson, lambda p: dict(mu=p["lambda"])),
         _fit=_fit_poisson,
         _draw=lambda p, size, rng: rng.poisson(p["lambda"], size),
     )
@@ -903,7 +985,7 @@ _register(
         positive=False,
         discrete=True,
         min_obs=2,
-        _freeze=lambda p: stats.nbinom(n=p["r"], p=p["p"]),
+        _freeze=_Scipy(stats.nbinom, lambda p: dict(n=p["r"], p=p["p"])),
         _fit=_fit_negative_binomial,
         _draw=lambda p, size, rng: rng.negative_binomial(p["r"], p["p"], size),
     )
@@ -915,7 +997,7 @@ _register(
         positive=False,
         discrete=True,
         min_obs=1,
-        _freeze=lambda p: stats.geom(p=p["p"], loc=-1),
+        _freeze=_Scipy(stats.geom, lambda p: dict(p=p["p"], loc=-1)),
         _fit=_fit_geometric,
         _draw=lambda p, size, rng: rng.geometric(p["p"], size) - 1,
     )
@@ -927,7 +1009,7 @@ _register(
         positive=False,
         discrete=True,
         min_obs=1,
-        _freeze=lambda p: stats.binom(n=int(p["n_trials"]), p=p["p"]),
+        _freeze=_Scipy(stats.binom, lambda p: dict(n=int(p["n_trials"]), p=p["p"])),
         _fit=_fit_binomial,
         _draw=lambda p, size, rng: rng.binomial(int(p["n_trials"]), p["p"], size),
         _fixed=lambda o: frozenset({"n_trials"}),
@@ -954,7 +1036,7 @@ def loglik(
     censored: np.ndarray | None = None,
 ) -> float:
     """Weighted log-likelihood of ``x`` under ``family(params)``; censored values use log S."""
-    dist = family.frozen(params)
+    dist = family.bound(params)
     with np.errstate(divide="ignore"):
         if family.discrete:
             return float(np.sum(w * dist.logpmf(x)))
@@ -1091,7 +1173,7 @@ def fit_family(
     ll = loglik(family, params, x, w, c)
     if not np.isfinite(ll):
         raise FitError(f"{name}: fit reached a non-finite log-likelihood ({ll}) with {params}")
-    lo, hi = family.frozen(params).support()
+    lo, hi = family.bound(params).support()
     obs = x if c is None else x[~c]
     if obs.min() < lo or obs.max() > hi:
         raise FitError(

@@ -31,6 +31,7 @@ accepts); the same seed and ``batch`` give the same p-values.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal
@@ -112,14 +113,27 @@ class CandidateResult:
 # statistics
 
 
+@functools.lru_cache(maxsize=16)
+def _rank_terms(n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """``i / n``, ``(i - 1) / n``, ``2 i - 1`` and ``(2 i - 1) / (2 n)`` for ``i = 1 .. n``.
+
+    Read-only, computed once per size (the bootstrap evaluates one size many times).
+    """
+    i = np.arange(1, n + 1)
+    terms = (i / n, (i - 1) / n, 2 * i - 1, (2 * i - 1) / (2.0 * n))
+    for t in terms:
+        t.flags.writeable = False
+    return terms
+
+
 def _sorted_stats(u: np.ndarray) -> np.ndarray:
     """KS, AD and CvM for rows of sorted CDF values ``u`` (shape (b, n), no weights)."""
     n = u.shape[-1]
     u = np.clip(u, _EPS, 1.0 - _EPS)
-    i = np.arange(1, n + 1)
-    ks = np.maximum(np.max(i / n - u, axis=-1), np.max(u - (i - 1) / n, axis=-1))
-    ad = -n - np.sum((2 * i - 1) * (np.log(u) + np.log1p(-u[..., ::-1])), axis=-1) / n
-    cvm = 1.0 / (12 * n) + np.sum((u - (2 * i - 1) / (2.0 * n)) ** 2, axis=-1)
+    upper, lower, odd, mid = _rank_terms(n)
+    ks = np.maximum(np.max(upper - u, axis=-1), np.max(u - lower, axis=-1))
+    ad = -n - np.sum(odd * (np.log(u) + np.log1p(-u[..., ::-1])), axis=-1) / n
+    cvm = 1.0 / (12 * n) + np.sum((u - mid) ** 2, axis=-1)
     return np.stack([ks, ad, cvm], axis=-1)
 
 
@@ -164,7 +178,7 @@ def _discrete_stats(x: np.ndarray, w: np.ndarray, dist: Any) -> np.ndarray:
 def _data_stats(
     family: Family, params: Mapping[str, float], x: np.ndarray, w: np.ndarray
 ) -> np.ndarray:
-    dist = family.frozen(params)
+    dist = family.bound(params)
     if family.discrete:
         return _discrete_stats(x, w, dist)
     vals, inv = np.unique(x, return_inverse=True)
@@ -255,10 +269,11 @@ def _bootstrap(
             except (FitError, MethodError):
                 failed += 1
                 continue
+            dist = family.bound(fit.params)
             if family.discrete:
-                res[start + j] = _discrete_stats(row, ones, family.frozen(fit.params))
+                res[start + j] = _discrete_stats(row, ones, dist)
             else:
-                cdf = np.asarray(family.frozen(fit.params).cdf(np.sort(row)), dtype=np.float64)
+                cdf = np.asarray(dist.cdf(np.sort(row)), dtype=np.float64)
                 res[start + j] = _sorted_stats(cdf[None, :])[0]
     return res, failed
 

@@ -358,6 +358,9 @@ class SplicedSampler(Sampler):
             self.params.update({f"body_{k}": v for k, v in body.params.items()})
         self.diagnostics: dict[str, Any] = {}
         self._moments: tuple[float, float] | None = None
+        self._equal_cache: (
+            tuple[tuple[Any, ...], tuple[np.ndarray, np.ndarray, np.ndarray]] | None
+        ) = None
 
     # --- body conditional on x <= u, and GPD tail ---
 
@@ -394,6 +397,8 @@ class SplicedSampler(Sampler):
         return np.where(x <= u, (1.0 - z) * self._body_cdf(x), 1.0 - z * self._tail_sf(x - u))
 
     def quantile(self, u: Any) -> np.ndarray:
+        if isinstance(self.body, EmpiricalSampler) and self.body.weights is None:
+            return self._quantile_equal(_check_probs(u))
         p = _check_u(u)
         split = 1.0 - self.zeta
         out = np.empty(p.shape)
@@ -406,6 +411,72 @@ class SplicedSampler(Sampler):
         tail = self.threshold + self._tail_quantile(np.clip((ph - split) / self.zeta, 0.0, 1.0))
         out[~low] = np.where(ph >= 1.0, self.support[1], tail)
         return out
+
+    def _equal_tables(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Shifted lookup tables of an unweighted empirical body (built once per body and zeta).
+
+        With ``cum = (1 - zeta) * body._cum`` and ``n`` values: ``lo1[j] = cum[j - 1]`` and
+        ``lo2[j] = cum[j - 2]`` (``-inf`` where the index is negative), ``vals[j] =
+        values[max(j - 1, 0)]``, for ``j = 0 .. n``.
+        """
+        body = self.body
+        cum0, values = body._cum, body.values  # type: ignore[attr-defined]
+        key = (self.zeta, body, cum0, values)
+        cached = self._equal_cache
+        if (
+            cached is not None
+            and cached[0][0] == key[0]
+            and all(a is b for a, b in zip(cached[0][1:], key[1:], strict=True))
+        ):
+            return cached[1]
+        n = values.size
+        lo1 = np.empty(n + 1)
+        lo1[0] = -np.inf
+        np.multiply(1.0 - self.zeta, cum0, out=lo1[1:])
+        lo2 = np.empty(n + 1)
+        lo2[0] = -np.inf
+        lo2[1:] = lo1[:n]
+        vals = np.empty(n + 1)
+        vals[0] = values[0]
+        vals[1:] = values
+        self._equal_cache = (key, (lo1, lo2, vals))
+        return lo1, lo2, vals
+
+    def _quantile_equal(self, p: np.ndarray) -> np.ndarray:
+        """quantile for an unweighted empirical body, without masks or compaction.
+
+        The index ``i`` of the body value is the first with ``cum[i] >= p`` (the generalised
+        inverse; ``cum`` as in :meth:`_empirical_index`, same products). Its arithmetic first
+        guess ``g = ceil(p n / (1 - zeta)) - 1`` is off by at most one (both sides carry a few
+        ulps of relative error, far below ``1 / n``), so one step each way settles it:
+        ``i = g + [cum[g] < p] - [cum[g - 1] >= p]`` (the two cannot both hold). The tables of
+        :meth:`_equal_tables` are shifted by one so that ``j = g + 1`` indexes them directly;
+        ``take(mode="clip")`` stands for the bounds checks (``j`` above ``n`` only happens for
+        probabilities above ``1 - zeta`` or, at ``p = 1 - zeta``, when ``cum[n - 1] = p``: the
+        last value either way). Every probability goes through the body search; the few above
+        ``1 - zeta`` are then overwritten by the tail.
+        """
+        lo1, lo2, vals = self._equal_tables()
+        n = vals.size - 1
+        split = 1.0 - self.zeta
+        flat = p.reshape(-1)
+        t = flat * (n / split)
+        np.ceil(t, out=t)
+        j = t.astype(np.int64)
+        del t
+        up = lo1.take(j, mode="clip") < flat
+        down = lo2.take(j, mode="clip") >= flat
+        j += up
+        j -= down
+        del up, down
+        out = vals.take(j, mode="clip")
+        high = np.flatnonzero(flat > split)
+        if high.size:
+            ph = flat[high]
+            s = np.clip((ph - split) / self.zeta, 0.0, 1.0)
+            tail = self.threshold + self._tail_quantile(s)
+            out[high] = np.where(ph >= 1.0, self.support[1], tail)
+        return out.reshape(p.shape)
 
     def _empirical_index(self, p: np.ndarray) -> np.ndarray:
         """First i with (1 - zeta) * cum[i] >= p: the same products as cdf, so an exact inverse."""
@@ -508,6 +579,14 @@ class SplicedSampler(Sampler):
         )
 
 
+def _check_probs(u: Any) -> np.ndarray:
+    """``u`` as float64, raising like ``samplers._check_u`` (two reductions instead of masks)."""
+    p = np.asarray(u, dtype=np.float64)
+    if p.size and not (p.min() >= 0.0 and p.max() <= 1.0):  # NaN fails both comparisons
+        raise ValueError("u: probabilities must lie in [0, 1]")
+    return p
+
+
 # ---------------------------------------------------------------------------------------------
 # fitting
 
@@ -550,7 +629,7 @@ def _parametric_body(
     def mean_loglik(p: dict[str, float]) -> float:
         if not fam._valid(p):
             return -np.inf
-        fu = float(fam.frozen(p).cdf(u))
+        fu = float(fam.bound(p).cdf(u))
         if not fu > 0:
             return -np.inf
         return loglik(fam, p, xb, wb) / total - float(np.log(fu))
@@ -558,7 +637,7 @@ def _parametric_body(
     free = _free_params(name)
     label = f"spliced body {name} (truncated at {u!r})"
     params = _mle.maximise_params(mean_loglik, dict(start), free, fam._kinds, label=label)
-    lo, _ = fam.frozen(params).support()
+    lo, _ = fam.bound(params).support()
     if not np.isfinite(mean_loglik(params)) or xb.min() < lo:
         raise FitError(f"{label}: reached an impossible answer {params}")
     for k in free:  # a positive parameter running off to 0 or infinity: a boundary, not a fit
