@@ -32,7 +32,7 @@ import yaml
 BIN = Path(sys.executable).parent
 METHODS = ["gamma", "lognormal", "empirical"]
 
-PLAIN = '''
+PLAIN = """
 import json
 configfile: "config.yaml"
 DS = list(config["datasets"])
@@ -79,9 +79,9 @@ rule check:
     params: version=1
     log: "plain/logs/check/{{ds}}.log"
     shell: "samplewright check {{input.data}} {{input.cand}} --out {{output}} > {{log}} 2>&1"
-'''.format(m=METHODS)
+""".format(m=METHODS)
 
-WRIGHT = '''
+WRIGHT = """
 import samplewright
 import samplewright.workflow as sw
 configfile: "config.yaml"
@@ -95,7 +95,7 @@ use rule * from samplewright
 rule all:
     default_target: True
     input: sw.targets()
-'''
+"""
 
 
 def make_workflow(root: Path, n: int) -> None:
@@ -105,10 +105,13 @@ def make_workflow(root: Path, n: int) -> None:
     for i in range(n):
         name = f"d{i:03d}"
         pd.DataFrame({"value": rng.gamma(2.0, 3.0, 2000), "other": rng.random(2000)}).to_csv(
-            root / "data" / f"{name}.csv", index=False)
+            root / "data" / f"{name}.csv", index=False
+        )
         datasets[name] = {"path": f"data/{name}.csv", "column": "value", "methods": METHODS}
-    cfg = {"datasets": {k: {"path": v["path"]} for k, v in datasets.items()},
-           "samplewright": {"store": "store", "draws": 100, "datasets": datasets}}
+    cfg = {
+        "datasets": {k: {"path": v["path"]} for k, v in datasets.items()},
+        "samplewright": {"store": "store", "draws": 100, "datasets": datasets},
+    }
     (root / "config.yaml").write_text(yaml.safe_dump(cfg))
     (root / "Snakefile.plain").write_text(PLAIN)
     (root / "Snakefile.wright").write_text(WRIGHT)
@@ -118,9 +121,22 @@ def snakemake(root: Path, snakefile: str, *args: str) -> float:
     env = dict(os.environ)
     env["PATH"] = f"{BIN}{os.pathsep}{env.get('PATH', '')}"
     t0 = time.perf_counter()
-    proc = subprocess.run([str(BIN / "snakemake"), "-s", snakefile, "--cores", "1",
-                           "--max-checksum-file-size", "0", *args], cwd=root, env=env,
-                          capture_output=True, text=True)
+    proc = subprocess.run(
+        [
+            str(BIN / "snakemake"),
+            "-s",
+            snakefile,
+            "--cores",
+            "1",
+            "--max-checksum-file-size",
+            "0",
+            *args,
+        ],
+        cwd=root,
+        env=env,
+        capture_output=True,
+        text=True,
+    )
     elapsed = time.perf_counter() - t0
     if proc.returncode != 0:
         sys.exit(f"snakemake {snakefile} {' '.join(args)} failed:\n{proc.stderr[-3000:]}")
@@ -130,8 +146,14 @@ def snakemake(root: Path, snakefile: str, *args: str) -> float:
 def materialise(root: Path, snakefile: str) -> None:
     env = dict(os.environ)
     env["PATH"] = f"{BIN}{os.pathsep}{env.get('PATH', '')}"
-    proc = subprocess.run([str(BIN / "snakemake"), "-s", snakefile, "--cores", "1", "--summary"],
-                          cwd=root, env=env, capture_output=True, text=True, check=True)
+    proc = subprocess.run(
+        [str(BIN / "snakemake"), "-s", snakefile, "--cores", "1", "--summary"],
+        cwd=root,
+        env=env,
+        capture_output=True,
+        text=True,
+        check=True,
+    )
     for line in proc.stdout.splitlines()[1:]:
         path = root / line.split("\t", 1)[0]
         path.parent.mkdir(parents=True, exist_ok=True)
@@ -170,16 +192,22 @@ def main() -> None:
 
         # one cluster job's re-parse: plan the single output of one fit job
         one = next((root / "store" / "samplers" / "d000" / "gamma").glob("*.parquet"))
-        job_plain = median_of(args.repeat, lambda: snakemake(
-            root, "Snakefile.plain", "-n", "plain/samplers/d000/gamma.parquet"))
-        job_wright = median_of(args.repeat, lambda: snakemake(
-            root, "Snakefile.wright", "-n", str(one.relative_to(root))))
+        job_plain = median_of(
+            args.repeat,
+            lambda: snakemake(root, "Snakefile.plain", "-n", "plain/samplers/d000/gamma.parquet"),
+        )
+        job_wright = median_of(
+            args.repeat,
+            lambda: snakemake(root, "Snakefile.wright", "-n", str(one.relative_to(root))),
+        )
     finally:
         shutil.rmtree(root, ignore_errors=True)
 
     n_jobs = args.datasets * (1 + len(METHODS) + 3)
-    print(f"{args.datasets} datasets x {len(METHODS)} methods ({n_jobs} jobs per workflow), "
-          f"median of {args.repeat}; baseline = plain Snakefile of the same shape, same run")
+    print(
+        f"{args.datasets} datasets x {len(METHODS)} methods ({n_jobs} jobs per workflow), "
+        f"median of {args.repeat}; baseline = plain Snakefile of the same shape, same run"
+    )
     rows = [
         ("dry-run planning, cold fingerprint cache", plan_cold, plan_plain),
         ("dry-run planning, warm fingerprint cache", plan_warm, plan_plain),

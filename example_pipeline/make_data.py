@@ -81,12 +81,14 @@ def make_pumps(rng: np.random.Generator, n: int = 400) -> pd.DataFrame:
     life = 9000.0 * rng.weibull(1.8, n)
     observed_for = rng.uniform(2000.0, 20000.0, n)  # hours since installation at cut-off
     still_running = life > observed_for
-    return pd.DataFrame({
-        "pump_id": [f"P{i:04d}" for i in range(1, n + 1)],
-        "station": rng.choice([f"S{i}" for i in range(1, 9)], n),
-        "hours": np.round(np.minimum(life, observed_for), 1),
-        "still_running": still_running.astype(int),
-    })
+    return pd.DataFrame(
+        {
+            "pump_id": [f"P{i:04d}" for i in range(1, n + 1)],
+            "station": rng.choice([f"S{i}" for i in range(1, 9)], n),
+            "hours": np.round(np.minimum(life, observed_for), 1),
+            "still_running": still_running.astype(int),
+        }
+    )
 
 
 KNOTS = """\

@@ -129,8 +129,7 @@ def fit(
         return _interpolated(x)
     if method in FAMILIES:
         out = fit_family(method, x, w, **options)
-        sampler = ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic,
-                                    bic=out.bic)
+        sampler = ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic, bic=out.bic)
         if method in COUNT_FAMILIES:
             from .counts import count_diagnostics
 

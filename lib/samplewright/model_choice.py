@@ -50,15 +50,17 @@ def _finite(v: float) -> float | None:
     return float(v) if np.isfinite(v) else None
 
 
-def fit_auto(x: np.ndarray, w: np.ndarray | None, censored: np.ndarray | None,
-             **options: Any) -> ParametricSampler:
+def fit_auto(
+    x: np.ndarray, w: np.ndarray | None, censored: np.ndarray | None, **options: Any
+) -> ParametricSampler:
     """Fit every candidate, rank them, return the winner carrying the whole ranking."""
     from .gof import rank_candidates
 
     unknown = sorted(set(options) - _OPTIONS)
     if unknown:
-        raise MethodError(f"unknown option {unknown[0]!r} for auto "
-                          f"(allowed: {', '.join(sorted(_OPTIONS))})")
+        raise MethodError(
+            f"unknown option {unknown[0]!r} for auto (allowed: {', '.join(sorted(_OPTIONS))})"
+        )
     if censored is not None and censored.any():
         raise MethodError("auto does not rank censored data yet; name a family instead")
     candidates = options.get("candidates") or default_candidates(x)
@@ -69,38 +71,54 @@ def fit_auto(x: np.ndarray, w: np.ndarray | None, censored: np.ndarray | None,
         raise MethodError(f"option 'candidates' of auto: unknown family {bad[0]!r}")
     criterion = options.get("criterion", "aic")
     if criterion not in ("aic", "bic"):
-        raise MethodError(f"option 'criterion' of auto: expected 'aic' or 'bic', "
-                          f"found {criterion!r}")
+        raise MethodError(
+            f"option 'criterion' of auto: expected 'aic' or 'bic', found {criterion!r}"
+        )
     n_resamples = options.get("n_resamples", 99)
     if isinstance(n_resamples, bool) or not isinstance(n_resamples, int) or n_resamples < 0:
-        raise MethodError(f"option 'n_resamples' of auto: expected an int >= 0, "
-                          f"found {n_resamples!r}")
+        raise MethodError(
+            f"option 'n_resamples' of auto: expected an int >= 0, found {n_resamples!r}"
+        )
     seed = options.get("seed", 0)
     if isinstance(seed, bool) or not isinstance(seed, int) or seed < 0:
         raise MethodError(f"option 'seed' of auto: expected an int >= 0, found {seed!r}")
 
-    ranked = rank_candidates(x, list(candidates), criterion=criterion, weights=w,
-                             n_resamples=n_resamples, rng=np.random.default_rng(seed))
+    ranked = rank_candidates(
+        x,
+        list(candidates),
+        criterion=criterion,
+        weights=w,
+        n_resamples=n_resamples,
+        rng=np.random.default_rng(seed),
+    )
     best = ranked[0]
     if best.error is not None:
         raise MethodError(f"auto: no candidate could be fitted (first error: {best.error})")
     table = []
     for rank, c in enumerate(ranked, start=1):
-        table.append({
-            "rank": rank,
-            "family": c.family,
-            "params": {k: float(v) for k, v in c.params.items()},
-            "n_params": c.n_params,
-            "loglik": _finite(c.loglik),
-            "aic": _finite(c.aic),
-            "bic": _finite(c.bic),
-            "statistics": {k: _finite(v) for k, v in c.statistics.items()},
-            "pvalues": {k: _finite(v) for k, v in c.pvalues.items()},
-            "error": c.error,
-        })
+        table.append(
+            {
+                "rank": rank,
+                "family": c.family,
+                "params": {k: float(v) for k, v in c.params.items()},
+                "n_params": c.n_params,
+                "loglik": _finite(c.loglik),
+                "aic": _finite(c.aic),
+                "bic": _finite(c.bic),
+                "statistics": {k: _finite(v) for k, v in c.statistics.items()},
+                "pvalues": {k: _finite(v) for k, v in c.pvalues.items()},
+                "error": c.error,
+            }
+        )
     poor = bool(best.pvalues) and min(best.pvalues.values()) <= POOR_FIT_P
-    sampler = ParametricSampler(best.family, dict(best.params), loglik=best.loglik,
-                                aic=best.aic, bic=best.bic, method="auto")
+    sampler = ParametricSampler(
+        best.family,
+        dict(best.params),
+        loglik=best.loglik,
+        aic=best.aic,
+        bic=best.bic,
+        method="auto",
+    )
     diagnostics: dict[str, Any] = {
         "auto": {
             "criterion": criterion,

@@ -87,7 +87,7 @@ class Sampler(ABC):
             return np.asarray(self.quantile(u), dtype=np.float64)
         out = np.empty(flat.size, dtype=np.float64)
         for start in range(0, flat.size, _BLOCK):
-            out[start:start + _BLOCK] = self.quantile(flat[start:start + _BLOCK])
+            out[start : start + _BLOCK] = self.quantile(flat[start : start + _BLOCK])
         return out.reshape(u.shape)
 
     def describe(self) -> dict[str, Any]:

@@ -125,8 +125,9 @@ class MethodSpec:
     @property
     def canonical(self) -> str:
         """Sorted JSON of the method and its options (as fitting.canonical_method)."""
-        return json.dumps({"method": self.method, "options": self.options}, sort_keys=True,
-                          separators=(",", ":"))
+        return json.dumps(
+            {"method": self.method, "options": self.options}, sort_keys=True, separators=(",", ":")
+        )
 
 
 def _method_specs(name: str, ds: Mapping[str, Any]) -> list[MethodSpec]:
@@ -200,7 +201,6 @@ class Plan:
         from .fingerprint import FINGERPRINT_VERSION
 
         self.snapshot_version = FINGERPRINT_VERSION
-        self.python = sys.executable
         self.checkpoints = checkpoints
         self.datasets: dict[str, dict[str, Any]] = self.config["datasets"]
         self.specs = {n: self._specs(n) for n in self.datasets}
@@ -292,8 +292,9 @@ class Plan:
         keys = [self.fit_key(name, s.label) for s in self.candidates(name)]
         memo = ("select", name, *keys)
         if memo not in self._keys:
-            self._keys[memo] = _h("select", keys, self.datasets[name]["choose"],
-                                  self.results_version)
+            self._keys[memo] = _h(
+                "select", keys, self.datasets[name]["choose"], self.results_version
+            )
         return self._keys[memo]
 
     def draws_key(self, name: str) -> str:
@@ -368,10 +369,6 @@ class Plan:
         for k, v in sorted(spec.options.items()):
             args += ["--option", f"{k}={json.dumps(v)}"]
         return " ".join(shlex.quote(a) for a in args)
-
-    def key_of(self, path: str) -> str:
-        """The content key in an artifact path (its file stem)."""
-        return Path(path).stem
 
 
 # ---------------------------------------------------------------------------------------------

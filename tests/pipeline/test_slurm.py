@@ -45,8 +45,21 @@ def _slurm_snakemake(work: Path, *args: str) -> subprocess.CompletedProcess[str]
     env = dict(os.environ)
     env["PATH"] = f"{BIN}{os.pathsep}{env.get('PATH', '')}"
     # A hung Snakemake ignores SIGTERM: timeout -k sends SIGKILL 30 s later.
-    cmd = ["timeout", "-k", "30", "1500", SNAKEMAKE, *BASE_ARGS, "--workflow-profile",
-           "profiles/slurm", "--executor", "slurm", "--jobs", "4", *args]
+    cmd = [
+        "timeout",
+        "-k",
+        "30",
+        "1500",
+        SNAKEMAKE,
+        *BASE_ARGS,
+        "--workflow-profile",
+        "profiles/slurm",
+        "--executor",
+        "slurm",
+        "--jobs",
+        "4",
+        *args,
+    ]
     return subprocess.run(cmd, cwd=work, env=env, capture_output=True, text=True, timeout=1600)
 
 
@@ -58,8 +71,7 @@ def _artifacts(work: Path) -> dict[str, str]:
     return out
 
 
-def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path,
-                                             tmp_path: Path) -> None:
+def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path, tmp_path: Path) -> None:
     """Every job goes through Slurm (accounting shows it), artifacts and risk figures equal the
     local run's, and a touch of the data afterwards plans no job."""
     work = copy_example(tmp_path / "on_slurm")
@@ -70,8 +82,12 @@ def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path,
     job_ids = re.findall(r"has been submitted with SLURM jobid (\d+)", out)
     n_jobs = len(re.findall(r"^rule \w+:$", out, flags=re.M))
     assert n_jobs >= 20 and len(job_ids) == n_jobs, (len(job_ids), n_jobs)
-    acct = subprocess.run(["sacct", "-X", "-n", "-P", "-o", "JobID,State,ExitCode,Account",
-                           "-j", ",".join(job_ids)], capture_output=True, text=True, check=True)
+    acct = subprocess.run(
+        ["sacct", "-X", "-n", "-P", "-o", "JobID,State,ExitCode,Account", "-j", ",".join(job_ids)],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
     rows = [r.split("|") for r in acct.stdout.split()]
     assert {r[0] for r in rows} == set(job_ids)
     assert all(r[1] == "COMPLETED" and r[2] == "0:0" for r in rows), rows

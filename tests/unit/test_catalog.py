@@ -44,7 +44,9 @@ def test_extension_options_match_their_modules() -> None:
 
 def test_planning_imports_stay_light() -> None:
     """Importing samplewright.workflow (as every Snakemake parse does) loads no scipy or pandas."""
-    code = ("import sys, samplewright, samplewright.workflow; "
-            "print(sorted(m for m in ('scipy', 'pandas', 'pyarrow') if m in sys.modules))")
+    code = (
+        "import sys, samplewright, samplewright.workflow; "
+        "print(sorted(m for m in ('scipy', 'pandas', 'pyarrow') if m in sys.modules))"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"

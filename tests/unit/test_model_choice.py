@@ -34,7 +34,8 @@ def test_auto_picks_lowest_aic_and_records_every_candidate() -> None:
     best = ranking[0]
     dist = s.family.frozen(best["params"])
     assert best["statistics"]["ks"] == pytest.approx(
-        stats.kstest(_gamma_data(), dist.cdf).statistic, rel=1e-9)
+        stats.kstest(_gamma_data(), dist.cdf).statistic, rel=1e-9
+    )
     # AIC = 2k - 2 loglik (Akaike 1974)
     assert best["aic"] == pytest.approx(2 * best["n_params"] - 2 * best["loglik"])
 
@@ -54,17 +55,16 @@ def test_auto_is_reproducible_from_its_seed() -> None:
     c = sw.fit(_gamma_data(), method="auto", n_resamples=19, seed=4).diagnostics
     assert a == b
     assert [r["aic"] for r in a["auto"]["ranking"]] == [r["aic"] for r in c["auto"]["ranking"]]
-    assert [r["pvalues"] for r in a["auto"]["ranking"]] != [r["pvalues"] for r in
-                                                            c["auto"]["ranking"]]
+    assert [r["pvalues"] for r in a["auto"]["ranking"]] != [
+        r["pvalues"] for r in c["auto"]["ranking"]
+    ]
 
 
 def test_auto_default_candidates_follow_the_data() -> None:
     """Counts get discrete candidates; signed data get real-line families."""
     rng = np.random.default_rng(5)
-    counts = sw.fit(rng.negative_binomial(3, 0.4, 300).astype(float), method="auto",
-                    n_resamples=0)
-    assert counts.diagnostics["auto"]["candidates"] == ["poisson", "negative_binomial",
-                                                         "geometric"]
+    counts = sw.fit(rng.negative_binomial(3, 0.4, 300).astype(float), method="auto", n_resamples=0)
+    assert counts.diagnostics["auto"]["candidates"] == ["poisson", "negative_binomial", "geometric"]
     assert counts.family.name == "negative_binomial"
     assert "dispersion" in counts.diagnostics and counts.diagnostics["dispersion"]["overdispersed"]
     signed = sw.fit(rng.normal(0.0, 1.0, 300), method="auto", n_resamples=0)
@@ -91,8 +91,10 @@ def test_show_prints_the_ranking(tmp_path: Path, capsys: pytest.CaptureFixture) 
     data = tmp_path / "x.csv"
     data.write_text("v\n" + "\n".join(f"{v:.6f}" for v in _gamma_data()) + "\n")
     out = tmp_path / "a.parquet"
-    assert main(["fit", str(data), "-c", "v", "-m", "auto", "-o", "n_resamples=9",
-                 "--out", str(out)]) == 0
+    assert (
+        main(["fit", str(data), "-c", "v", "-m", "auto", "-o", "n_resamples=9", "--out", str(out)])
+        == 0
+    )
     meta = sw.read_metadata(out)
     assert meta["diagnostics"]["auto"]["n_resamples"] == 9
     capsys.readouterr()
