@@ -62,7 +62,7 @@ import numpy as np
 from scipy import special
 
 from .errors import MethodError
-from .extensions import EXTENSION_METHODS
+from .extensions import EXTENSION_METHODS, check_values
 from .randomness import SeedLike, make_rng
 from .samplers import Sampler, Size, _check_u
 
@@ -431,12 +431,7 @@ def fit_smoothed(
         )
     if censored is not None and np.any(censored):
         raise MethodError("method 'smoothed' does not handle censored data")
-    x = np.asarray(values, dtype=np.float64)
-    if x.ndim != 1 or x.size == 0 or not np.all(np.isfinite(x)):
-        raise MethodError("values: expected a non-empty 1-d array of finite values")
-    w = None if weights is None else np.asarray(weights, dtype=np.float64)
-    if w is not None and (w.shape != x.shape or not np.all(np.isfinite(w) & (w > 0))):
-        raise MethodError(f"weights: expected {x.size} finite weights > 0")
+    x, w = check_values(values, weights)
     positive = _resolve_positive(x, options.get("positive", "auto"))
     if positive == "log" and x.min() <= 0:
         raise MethodError(

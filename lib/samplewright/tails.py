@@ -78,7 +78,7 @@ import numpy as np
 
 from . import _mle
 from .errors import FitError, MethodError
-from .extensions import EXTENSION_METHODS
+from .extensions import EXTENSION_METHODS, check_values
 from .families import FAMILIES, fit_family, get_family, loglik
 from .samplers import EmpiricalSampler, ParametricSampler, PiecewiseSampler, Sampler, _check_u
 
@@ -693,13 +693,8 @@ def fit_spliced(
     body_name, thr, q = _check_options(options)
     if censored is not None and np.any(censored):
         raise MethodError("method 'spliced' does not handle censored data")
-    x = np.asarray(values, dtype=np.float64)
-    if x.ndim != 1 or x.size == 0 or not np.all(np.isfinite(x)):
-        raise MethodError("values: expected a non-empty 1-d array of finite values")
-    w = None if weights is None else np.asarray(weights, dtype=np.float64)
+    x, w = check_values(values, weights)
     if w is not None:
-        if w.shape != x.shape or not np.all(np.isfinite(w) & (w > 0)):
-            raise MethodError(f"weights: expected {x.size} finite weights > 0")
         if body_name == "interpolated":
             raise MethodError(
                 "option 'body' of spliced: 'interpolated' does not take weights; "

@@ -78,6 +78,17 @@ def nothing_to_do(run: Run) -> bool:
     return "Nothing to be done" in run.out
 
 
+def store_artifacts(work: Path) -> dict[str, str]:
+    """Relative path -> content hash of every sampler artifact (candidates and selections)."""
+    import samplewright
+
+    out = {}
+    for sub in ("samplers", "selected"):
+        for path in sorted((work / "store" / sub).rglob("*.parquet")):
+            out[str(path.relative_to(work))] = samplewright.read_metadata(path)["content_hash"]
+    return out
+
+
 def copy_example(dest: Path) -> Path:
     """A fresh copy of the example pipeline with its invented data generated."""
     shutil.copytree(EXAMPLE, dest, ignore=_IGNORE)

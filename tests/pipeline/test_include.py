@@ -8,9 +8,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-import samplewright
-
-from .conftest import copy_example, dry, nothing_to_do, snakemake
+from .conftest import copy_example, dry, nothing_to_do, snakemake, store_artifacts
 
 pytestmark = pytest.mark.pipeline
 
@@ -25,16 +23,7 @@ use rule * from samplewright
 """
 
 
-def _artifacts(work: Path) -> dict[str, str]:
-    """Relative path -> content hash of every sampler artifact in the store."""
-    out = {}
-    for sub in ("samplers", "selected"):
-        for path in sorted((work / "store" / sub).rglob("*.parquet")):
-            out[str(path.relative_to(work))] = samplewright.read_metadata(path)["content_hash"]
-    return out
-
-
-def test_include_and_module_make_identical_artifacts(pipeline: Path, tmp_path: Path) -> None:
+def test_include_and_module_make_identicalstore_artifacts(pipeline: Path, tmp_path: Path) -> None:
     """A copy whose Snakefile uses include: plans nothing on the module run's store and, run
     fresh, writes the same paths, content hashes, draws and risk figures."""
     text = (pipeline / "Snakefile").read_text()
@@ -52,10 +41,10 @@ def test_include_and_module_make_identical_artifacts(pipeline: Path, tmp_path: P
     run = snakemake(fresh)
     assert run.returncode == 0, run.out[-3000:]
     # the module run's store may hold more (other tests change data in it)
-    assert _artifacts(fresh).items() <= _artifacts(pipeline).items()
+    assert store_artifacts(fresh).items() <= store_artifacts(pipeline).items()
     cfg = yaml.safe_load((fresh / "config.yaml").read_text())["samplewright"]["datasets"]
     n_fits = sum(len(ds.get("methods", ["knots"])) for ds in cfg.values())
-    assert len(_artifacts(fresh)) == n_fits + len(cfg)  # every candidate plus one selection
+    assert len(store_artifacts(fresh)) == n_fits + len(cfg)  # every candidate plus one selection
     risk_b = sorted((fresh / "results").glob("*/season_risk.json"))
     assert len(risk_b) == 1
     risk_a = pipeline / risk_b[0].relative_to(fresh)

@@ -17,9 +17,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-import samplewright
-
-from .conftest import BASE_ARGS, BIN, SNAKEMAKE, copy_example
+from .conftest import BASE_ARGS, BIN, SNAKEMAKE, copy_example, store_artifacts
 
 pytestmark = [pytest.mark.pipeline, pytest.mark.slurm, pytest.mark.slow]
 DATA_FILES = ("repairs.csv", "breaks.parquet", "pumps.csv", "spare_part_wait.yaml")
@@ -63,14 +61,6 @@ def _slurm_snakemake(work: Path, *args: str) -> subprocess.CompletedProcess[str]
     return subprocess.run(cmd, cwd=work, env=env, capture_output=True, text=True, timeout=1600)
 
 
-def _artifacts(work: Path) -> dict[str, str]:
-    out = {}
-    for sub in ("samplers", "selected"):
-        for path in sorted((work / "store" / sub).rglob("*.parquet")):
-            out[str(path.relative_to(work))] = samplewright.read_metadata(path)["content_hash"]
-    return out
-
-
 def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path, tmp_path: Path) -> None:
     """Every job goes through Slurm (accounting shows it), artifacts and risk figures equal the
     local run's, and a touch of the data afterwards plans no job."""
@@ -95,10 +85,10 @@ def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path, tmp_
 
     # The local store may hold more (other tests change data in it); every artifact of the
     # cluster run must be there under the same path with the same content hash.
-    ours = _artifacts(work)
+    ours = store_artifacts(work)
     cfg = yaml.safe_load((work / "config.yaml").read_text())["samplewright"]["datasets"]
     assert len(ours) == sum(len(ds.get("methods", ["knots"])) for ds in cfg.values()) + len(cfg)
-    assert ours.items() <= _artifacts(pipeline).items()
+    assert ours.items() <= store_artifacts(pipeline).items()
     risk = sorted((work / "results").glob("*/season_risk.json"))
     assert len(risk) == 1
     local = pipeline / risk[0].relative_to(work)
