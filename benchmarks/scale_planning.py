@@ -83,7 +83,7 @@ rule check:
 
 WRIGHT = """
 import samplewright
-import samplewright.workflow as sw
+import samplewright.pipeline.plan as sw
 configfile: "config.yaml"
 
 module samplewright:

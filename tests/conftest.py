@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from samplewright.cli import main
+from samplewright.pipeline.cli import main
 
 
 @pytest.fixture

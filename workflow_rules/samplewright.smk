@@ -14,7 +14,7 @@
 # down carries the results version in params: bumping it (on an algorithm change) reruns them;
 # the snapshot rules carry the snapshot format version instead (snapshots hold data, not results).
 
-import samplewright.workflow as _sw
+import samplewright.pipeline.plan as _sw
 
 SW = _sw.register(
     _sw.Plan(config.get("samplewright", config), checkpoints=checkpoints)

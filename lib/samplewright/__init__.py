@@ -15,7 +15,7 @@ __version__ = "0.1.0"
 import importlib
 from typing import TYPE_CHECKING, Any
 
-from .errors import (
+from samplewright.core.errors import (
     ArtifactError,
     ConfigError,
     FitError,
@@ -29,43 +29,45 @@ from .errors import (
 # Public name -> module that defines it. Loaded on first access (PEP 562), so that
 # ``import samplewright`` (done by every Snakemake parse of a workflow) stays cheap.
 _LAZY = {
-    "EmpiricalSampler": "samplers",
-    "GoodnessOfFitResult": "gof",
-    "ParametricSampler": "samplers",
-    "PiecewiseSampler": "samplers",
-    "Sampler": "samplers",
-    "fingerprint_arrays": "fingerprint",
-    "fingerprint_file": "fingerprint",
-    "fit": "fitting",
-    "from_knots": "samplers",
-    "goodness_of_fit": "gof",
-    "known_methods": "fitting",
-    "load_sampler": "artifacts",
-    "make_rng": "randomness",
-    "read_column": "intake",
-    "read_knots": "fitting",
-    "read_metadata": "artifacts",
-    "rules_path": "workflow",
-    "stream_rng": "randomness",
-    "verify_artifact": "artifacts",
-    "write_sampler": "artifacts",
+    "EmpiricalSampler": "distributions.empirical",
+    "GoodnessOfFitResult": "check.gof",
+    "ParametricSampler": "distributions.parametric",
+    "PiecewiseSampler": "distributions.piecewise",
+    "Sampler": "distributions.base",
+    "fingerprint_arrays": "store.fingerprints",
+    "fingerprint_file": "store.fingerprints",
+    "fit": "fitting.api",
+    "from_knots": "distributions.piecewise",
+    "goodness_of_fit": "check.gof",
+    "known_methods": "fitting.api",
+    "load_sampler": "store.artifacts",
+    "make_rng": "core.randomness",
+    "read_column": "intake.columns",
+    "read_knots": "fitting.api",
+    "read_metadata": "store.artifacts",
+    "rules_path": "pipeline.plan",
+    "stream_rng": "core.randomness",
+    "verify_artifact": "store.artifacts",
+    "write_sampler": "store.artifacts",
 }
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .artifacts import load_sampler, read_metadata, verify_artifact, write_sampler
-    from .fingerprint import fingerprint_arrays, fingerprint_file
-    from .fitting import fit, known_methods, read_knots
-    from .gof import GoodnessOfFitResult, goodness_of_fit
-    from .intake import read_column
-    from .randomness import make_rng, stream_rng
-    from .samplers import (
-        EmpiricalSampler,
-        ParametricSampler,
-        PiecewiseSampler,
-        Sampler,
-        from_knots,
+    from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit
+    from samplewright.core.randomness import make_rng, stream_rng
+    from samplewright.distributions.base import Sampler
+    from samplewright.distributions.empirical import EmpiricalSampler
+    from samplewright.distributions.parametric import ParametricSampler
+    from samplewright.distributions.piecewise import PiecewiseSampler, from_knots
+    from samplewright.fitting.api import fit, known_methods, read_knots
+    from samplewright.intake.columns import read_column
+    from samplewright.pipeline.plan import rules_path
+    from samplewright.store.artifacts import (
+        load_sampler,
+        read_metadata,
+        verify_artifact,
+        write_sampler,
     )
-    from .workflow import rules_path
+    from samplewright.store.fingerprints import fingerprint_arrays, fingerprint_file
 
 
 def __getattr__(name: str) -> Any:

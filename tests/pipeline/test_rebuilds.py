@@ -182,10 +182,10 @@ def test_bumping_results_version_reruns_from_fitting_down(pipeline: Path, tmp_pa
         lib / "samplewright" / "workflow_rules",
         ignore=shutil.ignore_patterns("__pycache__"),
     )
-    wf = lib / "samplewright" / "workflow.py"
+    wf = lib / "samplewright" / "core" / "versions.py"
     text = wf.read_text()
     assert "\nRESULTS_VERSION = " in text
-    import samplewright.workflow as current
+    import samplewright.core.versions as current
 
     wf.write_text(
         text.replace(

@@ -21,7 +21,7 @@ from lifelines.datasets import load_leukemia, load_rossi, load_waltons
 from scipy import stats
 
 import samplewright as sw
-from samplewright.censoring import estimate_survival, fit_kaplan_meier
+from samplewright.fitting.kaplan_meier import estimate_survival, fit_kaplan_meier
 
 Data = tuple[np.ndarray, np.ndarray]  # values, event observed (True = not censored)
 

@@ -17,8 +17,8 @@ import statsmodels.api as sm
 from scipy import stats
 from statsmodels.datasets import cpunish, randhie
 
-from samplewright.counts import dispersion_check, fit_empirical_pmf
-from samplewright.randomness import make_rng
+from samplewright.core.randomness import make_rng
+from samplewright.fitting.counts import dispersion_check, fit_empirical_pmf
 
 
 def _mdvis() -> np.ndarray:

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
-from samplewright.families import FAMILIES, fit_family, get_family, loglik
+from samplewright.distributions.families import FAMILIES, fit_family, get_family, loglik
 
 # family -> (scipy distribution, true parameters for generated data, fixed scipy fit arguments)
 CONTINUOUS = {

@@ -16,8 +16,8 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from samplewright.families import fit_family, get_family
-from samplewright.gof import _bootstrap, edf_statistics, goodness_of_fit
+from samplewright.check.gof import _bootstrap, edf_statistics, goodness_of_fit
+from samplewright.distributions.families import fit_family, get_family
 
 # (case, statistic, upper-tail probability, critical value of the modified statistic)
 CRITICAL = [

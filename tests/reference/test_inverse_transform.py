@@ -13,7 +13,8 @@ from lifelines.datasets import load_waltons
 from scipy import stats
 
 import samplewright as sw
-from samplewright.samplers import EmpiricalSampler, from_knots
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.distributions.piecewise import from_knots
 
 N = 200_000
 P_FLOOR = 1e-3  # common practice, no source: a fixed-seed test "passes" unless p is tiny

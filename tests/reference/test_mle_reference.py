@@ -15,7 +15,7 @@ from lifelines.datasets import load_waltons
 from scipy import stats
 
 import samplewright as sw
-from samplewright.errors import MethodError
+from samplewright.core.errors import MethodError
 
 LL_RTOL = 1e-7  # our log-likelihood may fall short of scipy's by at most this (relative)
 

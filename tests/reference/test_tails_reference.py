@@ -19,8 +19,8 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
-from samplewright.samplers import EmpiricalSampler
-from samplewright.tails import fit_spliced, gpd_fit_excesses
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.fitting.spliced import fit_spliced, gpd_fit_excesses
 
 
 def _progrec() -> np.ndarray:

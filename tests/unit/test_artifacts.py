@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.artifacts: writing, loading, hashing and tamper detection."""
+"""Unit tests for samplewright.store.artifacts: writing, loading, hashing and tamper detection."""
 
 from __future__ import annotations
 
@@ -16,8 +16,13 @@ import pyarrow.parquet as pq
 import pytest
 
 import samplewright
-import samplewright.artifacts as art
-from samplewright.artifacts import (
+import samplewright.store.artifacts as art
+from samplewright.core.errors import ArtifactError, IntegrityError
+from samplewright.distributions.base import Sampler
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.distributions.piecewise import from_knots
+from samplewright.fitting.api import fit
+from samplewright.store.artifacts import (
     METADATA_KEY,
     content_hash,
     load_sampler,
@@ -25,9 +30,6 @@ from samplewright.artifacts import (
     verify_artifact,
     write_sampler,
 )
-from samplewright.errors import ArtifactError, IntegrityError
-from samplewright.fitting import fit
-from samplewright.samplers import EmpiricalSampler, Sampler, from_knots
 
 DATA = np.random.default_rng(41).gamma(2.0, 1.5, 60) + 0.1  # demo data
 WEIGHTS = np.random.default_rng(42).uniform(0.2, 3.0, 60)  # demo data

@@ -5,10 +5,10 @@ from __future__ import annotations
 import subprocess
 import sys
 
-from samplewright import catalog
-from samplewright.extensions import load_extensions
-from samplewright.families import FAMILIES, FIT_OPTIONS
-from samplewright.fitting import NONPARAMETRIC_METHODS
+from samplewright.fitting import catalog
+from samplewright.distributions.families import FAMILIES, FIT_OPTIONS
+from samplewright.fitting.api import NONPARAMETRIC_METHODS
+from samplewright.fitting.registry import load_extensions
 
 
 def test_family_options_match_the_families_module() -> None:
@@ -28,9 +28,11 @@ def test_extension_options_match_their_modules() -> None:
     """The catalogued options of each extension method are exactly those its fitter accepts."""
     import pytest
 
-    from samplewright import model_choice, smoothing, tails
-    from samplewright.errors import MethodError
-    from samplewright.fitting import fit
+    from samplewright.check import auto as model_choice
+    from samplewright.fitting import smoothed as smoothing
+    from samplewright.fitting import spliced as tails
+    from samplewright.core.errors import MethodError
+    from samplewright.fitting.api import fit
 
     assert catalog.EXTENSION_OPTIONS["auto"] == set(model_choice._OPTIONS)
     assert catalog.EXTENSION_OPTIONS["spliced"] == set(tails._OPTIONS)
@@ -45,7 +47,7 @@ def test_extension_options_match_their_modules() -> None:
 def test_planning_imports_stay_light() -> None:
     """Importing samplewright.workflow (as every Snakemake parse does) loads no scipy or pandas."""
     code = (
-        "import sys, samplewright, samplewright.workflow; "
+        "import sys, samplewright, samplewright.workflow, samplewright.pipeline.plan; "
         "print(sorted(m for m in ('scipy', 'pandas', 'pyarrow') if m in sys.modules))"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

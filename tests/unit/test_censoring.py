@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.censoring: the Kaplan–Meier sampler and its tail rules.
+"""Unit tests for samplewright.fitting.kaplan_meier: the Kaplan–Meier sampler and its tail rules.
 
 Small data sets are invented; expected values are hand computations of the product-limit
 formula (common practice, no source). Checks against lifelines, scipy and published numbers are
@@ -16,14 +16,15 @@ import pytest
 from scipy import integrate
 
 import samplewright as sw
-from samplewright.censoring import (
+from samplewright.core.errors import MethodError
+from samplewright.distributions.base import SAMPLER_KINDS
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.fitting.kaplan_meier import (
     TAIL_RULES,
     KaplanMeierSampler,
     estimate_survival,
     fit_kaplan_meier,
 )
-from samplewright.errors import MethodError
-from samplewright.samplers import SAMPLER_KINDS, EmpiricalSampler
 
 Cli = Callable[..., tuple[int, str, str]]
 

@@ -15,10 +15,10 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from samplewright.artifacts import METADATA_KEY, load_sampler, read_metadata
-from samplewright.cli import build_parser, main
-from samplewright.fingerprint import fingerprint_file
-from samplewright.randomness import stream_rng
+from samplewright.core.randomness import stream_rng
+from samplewright.pipeline.cli import build_parser, main
+from samplewright.store.artifacts import METADATA_KEY, load_sampler, read_metadata
+from samplewright.store.fingerprints import fingerprint_file
 
 Cli = Callable[..., tuple[int, str, str]]
 HOURS = [2.5, 1.25, 4.0, 3.5, 0.75, 6.0, 2.0, 5.5]  # demo data

@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.counts: the empirical pmf sampler and the dispersion check.
+"""Unit tests for samplewright.fitting.counts: the empirical pmf sampler and the dispersion check.
 
 Small data sets are invented; expected values are hand computations (common practice, no
 source). Checks against statsmodels, scipy and published data are in
@@ -15,15 +15,16 @@ import numpy as np
 import pytest
 
 import samplewright as sw
-from samplewright.counts import (
+from samplewright.core.errors import MethodError
+from samplewright.distributions.base import SAMPLER_KINDS
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.fitting.counts import (
     DispersionResult,
     EmpiricalPmfSampler,
     count_diagnostics,
     dispersion_check,
     fit_empirical_pmf,
 )
-from samplewright.errors import MethodError
-from samplewright.samplers import SAMPLER_KINDS, EmpiricalSampler
 
 Cli = Callable[..., tuple[int, str, str]]
 

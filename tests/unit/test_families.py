@@ -1,4 +1,4 @@
-"""Behaviour of samplewright.families: registry, options, closed forms, checks, censoring, draws."""
+"""Behaviour of the families: registry, options, closed forms, checks, censoring, draws."""
 
 from __future__ import annotations
 
@@ -9,9 +9,15 @@ import numpy as np
 import pytest
 from scipy import special, stats
 
-from samplewright import families
-from samplewright.errors import FitError, MethodError
-from samplewright.families import FAMILIES, FIT_OPTIONS, FitOutcome, fit_family, get_family
+from samplewright.distributions import families
+from samplewright.core.errors import FitError, MethodError
+from samplewright.distributions.families import (
+    FAMILIES,
+    FIT_OPTIONS,
+    FitOutcome,
+    fit_family,
+    get_family,
+)
 
 # parameters to generate data from for every family, with the options its fit needs
 TRUE = {
@@ -383,7 +389,7 @@ def test_censoring_refusals():
 
 def test_fit_error_when_the_optimiser_cannot_start(monkeypatch):
     """A start with a non-finite likelihood raises FitError, not a silent answer."""
-    from samplewright import _mle
+    from samplewright.fitting import optimise as _mle
 
     with pytest.raises(FitError, match="starting values"):
         _mle.maximise(lambda v: -np.inf, np.zeros(2), label="test")

@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.fingerprint: value fingerprints and their stat-keyed cache."""
+"""Unit tests for samplewright.store.fingerprints: value fingerprints and their stat-keyed cache."""
 
 from __future__ import annotations
 
@@ -12,9 +12,9 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-import samplewright.intake as intake_mod
-from samplewright.errors import InputDataError
-from samplewright.fingerprint import fingerprint_arrays, fingerprint_file
+import samplewright.intake.columns as intake_mod
+from samplewright.core.errors import InputDataError
+from samplewright.store.fingerprints import fingerprint_arrays, fingerprint_file
 
 VALUES = np.random.default_rng(11).gamma(2.0, 3.0, 40)  # demo data
 WEIGHTS = np.random.default_rng(12).uniform(0.5, 2.0, 40)  # demo data

@@ -1,4 +1,4 @@
-"""Behaviour of samplewright.gof: statistics, bootstrap p-values, reproducibility, ranking."""
+"""Behaviour of samplewright.check.gof: statistics, bootstrap p-values, reproducibility, ranking."""
 
 from __future__ import annotations
 
@@ -6,10 +6,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from samplewright import gof
-from samplewright.errors import MethodError
-from samplewright.families import FitOutcome, fit_family, get_family
-from samplewright.gof import (
+from samplewright.check import gof
+from samplewright.check.gof import (
     STATISTICS,
     CandidateResult,
     GoodnessOfFitResult,
@@ -17,6 +15,8 @@ from samplewright.gof import (
     goodness_of_fit,
     rank_candidates,
 )
+from samplewright.core.errors import MethodError
+from samplewright.distributions.families import FitOutcome, fit_family, get_family
 
 
 def _slow_statistics(x: np.ndarray, cdf) -> np.ndarray:

@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.intake: reading and cleaning one numeric column."""
+"""Unit tests for samplewright.intake.columns: reading and cleaning one numeric column."""
 
 from __future__ import annotations
 
@@ -10,8 +10,8 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from samplewright.errors import InputDataError
-from samplewright.intake import MISSING_TOKENS, read_column, read_raw_columns
+from samplewright.core.errors import InputDataError
+from samplewright.intake.columns import MISSING_TOKENS, read_column, read_raw_columns
 
 
 def _write(path: Path, text: str) -> Path:

@@ -9,8 +9,8 @@ import pytest
 from scipy import stats
 
 import samplewright as sw
-from samplewright.cli import main
-from samplewright.errors import MethodError
+from samplewright.core.errors import MethodError
+from samplewright.pipeline.cli import main
 
 
 def _gamma_data() -> np.ndarray:

@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.randomness: seeds, named streams and stable integers."""
+"""Unit tests for samplewright.core.randomness: seeds, named streams and stable integers."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import sys
 import numpy as np
 import pytest
 
-from samplewright.randomness import make_rng, stable_int, stream_rng
+from samplewright.core.randomness import make_rng, stable_int, stream_rng
 
 
 def test_make_rng_returns_the_same_generator_object() -> None:
@@ -86,7 +86,9 @@ def test_stream_rng_rejects_negative_root_seed() -> None:
 
 def test_stable_int_is_stable_across_processes() -> None:
     """stable_int gives the same number in a new interpreter (unlike hash(), which is salted)."""
-    code = "from samplewright.randomness import stable_int; print(stable_int('repair_hours', 4))"
+    code = (
+        "from samplewright.core.randomness import stable_int; print(stable_int('repair_hours', 4))"
+    )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert int(out.stdout) == stable_int("repair_hours", 4)
     assert 0 <= stable_int("repair_hours", 4) < 2**64  # 64-bit, as documented

@@ -1,4 +1,4 @@
-"""Check summaries and the show view (samplewright.report)."""
+"""Check summaries and the show view (samplewright.check.render)."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ import pytest
 from scipy import stats
 
 import samplewright as sw
-from samplewright.report import CAUTION, _ks_distance, check_candidates, write_check
+from samplewright.check.render import CAUTION, _ks_distance, check_candidates, write_check
 
 
 def test_ks_distance_matches_scipy_for_a_continuous_model() -> None:

@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.samplers: the common interface, validation and payloads."""
+"""Unit tests for samplewright.distributions: the common interface, validation and payloads."""
 
 from __future__ import annotations
 
@@ -6,14 +6,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from samplewright.errors import KnotsError, MethodError
-from samplewright.samplers import (
-    SAMPLER_KINDS,
-    EmpiricalSampler,
-    ParametricSampler,
-    PiecewiseSampler,
-    from_knots,
-)
+from samplewright.core.errors import KnotsError, MethodError
+from samplewright.distributions.base import SAMPLER_KINDS
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.distributions.parametric import ParametricSampler
+from samplewright.distributions.piecewise import PiecewiseSampler, from_knots
 
 
 def _all_samplers() -> list[object]:

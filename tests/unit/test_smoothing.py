@@ -1,4 +1,4 @@
-"""Tests of the kernel-smoothed method in samplewright.smoothing, with outside reference checks.
+"""Tests of the kernel-smoothed method in samplewright.fitting.smoothed, with outside reference checks.
 
 Reference sources: scipy.stats.gaussian_kde (mixture CDF and density, its bandwidth factors),
 statsmodels.nonparametric.bandwidths (Silverman's rule), Silverman (1986, eq. 3.31) and Scott
@@ -16,10 +16,10 @@ import pytest
 from scipy import integrate, stats
 
 import samplewright as sw
-from samplewright.artifacts import load_sampler, write_sampler
-from samplewright.errors import MethodError
-from samplewright.extensions import EXTENSION_METHODS
-from samplewright.smoothing import SmoothedSampler, bandwidth, fit_smoothed
+from samplewright.core.errors import MethodError
+from samplewright.fitting.registry import EXTENSION_METHODS
+from samplewright.fitting.smoothed import SmoothedSampler, bandwidth, fit_smoothed
+from samplewright.store.artifacts import load_sampler, write_sampler
 
 
 @pytest.fixture(scope="module")
@@ -46,7 +46,7 @@ def _kde(centres: np.ndarray, h: float, weights: np.ndarray | None = None) -> st
 
 
 def test_smoothed_is_registered_and_reached_through_fit(income: np.ndarray) -> None:
-    """Importing samplewright.smoothing registers 'smoothed', and sw.fit dispatches to it."""
+    """Importing samplewright.fitting.smoothed registers 'smoothed', and sw.fit dispatches to it."""
     assert EXTENSION_METHODS["smoothed"] is fit_smoothed
     s = sw.fit(income, method="smoothed", positive="none")
     assert isinstance(s, SmoothedSampler) and s.params["positive"] == "none"

@@ -1,4 +1,4 @@
-"""Unit tests of the spliced (body + generalized Pareto tail) method in samplewright.tails."""
+"""Unit tests of the spliced (body + generalized Pareto tail) method in samplewright.fitting.spliced."""
 
 from __future__ import annotations
 
@@ -10,11 +10,12 @@ import pytest
 from scipy import integrate
 
 import samplewright as sw
-from samplewright.artifacts import load_sampler, write_sampler
-from samplewright.errors import MethodError
-from samplewright.extensions import EXTENSION_METHODS
-from samplewright.samplers import EmpiricalSampler, ParametricSampler, PiecewiseSampler
-from samplewright.tails import (
+from samplewright.core.errors import MethodError
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.distributions.parametric import ParametricSampler
+from samplewright.distributions.piecewise import PiecewiseSampler
+from samplewright.fitting.registry import EXTENSION_METHODS
+from samplewright.fitting.spliced import (
     MIN_EXCEEDANCES_AUTO,
     STABILITY_PROBABILITIES,
     SplicedSampler,
@@ -22,6 +23,7 @@ from samplewright.tails import (
     gpd_fit_excesses,
     scan_thresholds,
 )
+from samplewright.store.artifacts import load_sampler, write_sampler
 
 
 @pytest.fixture(scope="module")
@@ -38,7 +40,7 @@ def fitted(data: np.ndarray) -> SplicedSampler:
 
 
 def test_spliced_is_registered_and_reached_through_fit(data: np.ndarray) -> None:
-    """Importing samplewright.tails registers 'spliced', and sw.fit dispatches to it."""
+    """Importing samplewright.fitting.spliced registers 'spliced', and sw.fit dispatches to it."""
     assert EXTENSION_METHODS["spliced"] is fit_spliced
     assert "spliced" in sw.known_methods()
     s = sw.fit(data, method="spliced", threshold_quantile=0.9)

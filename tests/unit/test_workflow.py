@@ -8,9 +8,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-import samplewright.workflow as wf
-from samplewright.cli import main
-from samplewright.errors import ConfigError
+import samplewright.pipeline.plan as wf
+from samplewright.core.errors import ConfigError
+from samplewright.pipeline.cli import main
 
 
 @pytest.fixture

@@ -15,10 +15,10 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from .artifacts import atomic_write
-from .errors import InputDataError
-from .fingerprint import fingerprint_column
-from .intake import ColumnData, Policy, read_column
+from samplewright.core.errors import InputDataError
+from samplewright.intake.columns import ColumnData, Policy, read_column
+from samplewright.store.artifacts import atomic_write
+from samplewright.store.fingerprints import fingerprint_column
 
 __all__ = ["SNAPSHOT_KEY", "read_data", "snapshot_info", "write_snapshot"]
 

@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 import pyarrow.parquet as pq
 
-from .errors import InputDataError
+from samplewright.core.errors import InputDataError
 
 __all__ = ["MISSING_TOKENS", "ColumnData", "Policy", "read_column", "read_raw_columns"]
 

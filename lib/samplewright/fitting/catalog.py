@@ -16,7 +16,7 @@ __all__ = [
     "NONPARAMETRIC",
 ]
 
-# family -> fit options it accepts (see samplewright.families)
+# family -> fit options it accepts (see samplewright.distributions.families)
 FAMILY_OPTIONS: dict[str, frozenset[str]] = {
     "normal": frozenset(),
     "lognormal": frozenset({"loc"}),
@@ -43,11 +43,11 @@ FAMILY_OPTIONS: dict[str, frozenset[str]] = {
 NONPARAMETRIC = ("empirical", "interpolated")
 # extension method -> module that registers it (imported on first use)
 EXTENSION_MODULES: dict[str, str] = {
-    "auto": "model_choice",
-    "spliced": "tails",
-    "smoothed": "smoothing",
-    "kaplan_meier": "censoring",
-    "empirical_pmf": "counts",
+    "auto": "samplewright.check.auto",
+    "spliced": "samplewright.fitting.spliced",
+    "smoothed": "samplewright.fitting.smoothed",
+    "kaplan_meier": "samplewright.fitting.kaplan_meier",
+    "empirical_pmf": "samplewright.fitting.counts",
 }
 EXTENSION_OPTIONS: dict[str, frozenset[str]] = {
     "auto": frozenset({"candidates", "criterion", "n_resamples", "seed"}),

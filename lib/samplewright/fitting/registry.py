@@ -1,8 +1,8 @@
 """Methods beyond plain families and empirical CDFs (tails, smoothing, censoring, model choice).
 
 ``EXTENSION_METHODS`` maps a method name to ``fitter(x, weights, censored, **options)`` returning
-a :class:`~samplewright.samplers.Sampler`. The modules named in
-:data:`samplewright.catalog.EXTENSION_MODULES` register themselves here when imported;
+a :class:`~samplewright.distributions.base.Sampler`. The modules named in
+:data:`samplewright.fitting.catalog.EXTENSION_MODULES` register themselves here when imported;
 :func:`load_extensions` imports them all (fitting and loading artifacts call it), so that a bare
 ``import samplewright`` stays cheap.
 """
@@ -23,7 +23,7 @@ def check_values(values: Any, weights: Any) -> tuple[Any, Any]:
     matching finite positive floats; MethodError naming the argument otherwise."""
     import numpy as np
 
-    from .errors import MethodError
+    from samplewright.core.errors import MethodError
 
     x = np.asarray(values, dtype=np.float64)
     if x.ndim != 1 or x.size == 0 or not np.all(np.isfinite(x)):
@@ -36,8 +36,8 @@ def check_values(values: Any, weights: Any) -> tuple[Any, Any]:
 
 def load_extensions() -> dict[str, Callable[..., Any]]:
     """Import every extension module (once) and return the registry."""
-    from .catalog import EXTENSION_MODULES
+    from samplewright.fitting.catalog import EXTENSION_MODULES
 
     for module in sorted(set(EXTENSION_MODULES.values())):
-        importlib.import_module(f"samplewright.{module}")
+        importlib.import_module(module)
     return EXTENSION_METHODS

@@ -34,8 +34,9 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from .errors import ArtifactError, IntegrityError, SamplewrightError
-from .samplers import SAMPLER_KINDS, Sampler
+from samplewright.core.errors import ArtifactError, IntegrityError, SamplewrightError
+from samplewright.core.versions import ARTIFACT_FORMAT_VERSION
+from samplewright.distributions.base import SAMPLER_KINDS, Sampler
 
 __all__ = [
     "FORMAT_VERSION",
@@ -47,7 +48,7 @@ __all__ = [
     "write_sampler",
 ]
 
-FORMAT_VERSION = 1
+FORMAT_VERSION = ARTIFACT_FORMAT_VERSION
 METADATA_KEY = b"samplewright"
 _HASHED = ("format_version", "sampler", "fingerprint", "key", "data", "diagnostics")
 
@@ -82,7 +83,7 @@ def _versions() -> dict[str, str]:
     import pandas
     import scipy
 
-    from . import __version__
+    from samplewright import __version__
 
     return {
         "samplewright": __version__,
@@ -107,7 +108,7 @@ def write_sampler(
     """Write ``sampler`` to a Parquet artifact atomically; return the metadata written.
 
     >>> import tempfile, os
-    >>> from samplewright.samplers import from_knots
+    >>> from samplewright.distributions.piecewise import from_knots
     >>> d = tempfile.mkdtemp()
     >>> meta = write_sampler(from_knots([0, 1], [0, 1]), os.path.join(d, "u.parquet"))
     >>> meta["sampler"]["method"], meta["content_hash"][:7]
@@ -229,7 +230,7 @@ def verify_artifact(path: str | Path) -> dict[str, Any]:
 def _build(path: Path, payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> Sampler:
     described = meta.get("sampler") or {}
     kind = described.get("kind")
-    from .extensions import load_extensions
+    from samplewright.fitting.registry import load_extensions
 
     load_extensions()  # extension modules define their sampler kinds
     cls = SAMPLER_KINDS.get(str(kind))
@@ -246,7 +247,7 @@ def _build(path: Path, payload: Mapping[str, np.ndarray], meta: Mapping[str, Any
 def load_sampler(path: str | Path) -> Sampler:
     """Load and verify an artifact; the sampler carries the metadata as ``.metadata``.
 
-    Raises :class:`~samplewright.errors.IntegrityError` if the content was altered.
+    Raises :class:`~samplewright.core.errors.IntegrityError` if the content was altered.
     """
     payload, meta = _read(Path(path))
     _verify(Path(path), payload, meta)

@@ -1,4 +1,4 @@
-"""Optimiser helpers behind :mod:`samplewright.families` (private).
+"""Optimiser helpers behind :mod:`samplewright.distributions.families` (private).
 
 Three tools cover every family that has no closed-form maximum-likelihood estimate:
 
@@ -23,7 +23,7 @@ from collections.abc import Callable, Mapping, Sequence
 import numpy as np
 from scipy import optimize, special
 
-from .errors import FitError, MethodError
+from samplewright.core.errors import FitError, MethodError
 
 Params = dict[str, float]
 # How a free parameter maps to the optimiser's unconstrained coordinate v:

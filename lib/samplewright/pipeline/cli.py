@@ -15,13 +15,19 @@ from typing import Any
 
 import numpy as np
 
-from . import __version__
-from .artifacts import atomic_write, load_sampler, read_metadata, verify_artifact, write_sampler
-from .errors import IntegrityError, MethodError, SamplewrightError
-from .fingerprint import fingerprint_column, fingerprint_file
-from .fitting import fit, known_methods, parse_knots_text, read_knots
-from .randomness import stream_rng
-from .samplers import Sampler
+from samplewright import __version__
+from samplewright.core.errors import IntegrityError, MethodError, SamplewrightError
+from samplewright.core.randomness import stream_rng
+from samplewright.distributions.base import Sampler
+from samplewright.fitting.api import fit, known_methods, parse_knots_text, read_knots
+from samplewright.store.artifacts import (
+    atomic_write,
+    load_sampler,
+    read_metadata,
+    verify_artifact,
+    write_sampler,
+)
+from samplewright.store.fingerprints import fingerprint_column, fingerprint_file
 
 EXIT_INPUT = 2
 EXIT_INTEGRITY = 3
@@ -39,8 +45,8 @@ def _parse_option(text: str) -> tuple[str, Any]:
 
 
 def _method_minimum(method: str) -> int:
-    from .families import FAMILIES
-    from .fitting import NONPARAMETRIC_METHODS
+    from samplewright.distributions.families import FAMILIES
+    from samplewright.fitting.api import NONPARAMETRIC_METHODS
 
     if method in NONPARAMETRIC_METHODS:
         return NONPARAMETRIC_METHODS[method][0]
@@ -92,8 +98,8 @@ def _check_expected(label: str, fp: str, expected: str | None) -> None:
 
 
 def cmd_snapshot(args: argparse.Namespace) -> int:
-    from .intake import read_column
-    from .snapshots import write_snapshot
+    from samplewright.intake.columns import read_column
+    from samplewright.store.snapshots import write_snapshot
 
     data = read_column(args.data, args.column, **_reading(args))
     fp = fingerprint_column(data)
@@ -104,7 +110,7 @@ def cmd_snapshot(args: argparse.Namespace) -> int:
 
 
 def cmd_fit(args: argparse.Namespace) -> int:
-    from .snapshots import read_data
+    from samplewright.store.snapshots import read_data
 
     options = dict(_parse_option(o) for o in args.option or [])
     if args.method not in known_methods():
@@ -174,7 +180,7 @@ def cmd_knots(args: argparse.Namespace) -> int:
 
 
 def fingerprint_column_like(sampler: Any) -> str:
-    from .fingerprint import fingerprint_arrays
+    from samplewright.store.fingerprints import fingerprint_arrays
 
     return fingerprint_arrays(np.concatenate([sampler.x, sampler.p]))
 
@@ -235,7 +241,7 @@ def cmd_show(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(meta, indent=2, sort_keys=True))
         return 0
-    from .report import format_show
+    from samplewright.check.render import format_show
 
     print(format_show(args.artifact, sampler, meta))
     return 0
@@ -259,7 +265,7 @@ def cmd_verify(args: argparse.Namespace) -> int:
 
 
 def cmd_select(args: argparse.Namespace) -> int:
-    from .selection import select_artifacts
+    from samplewright.check.selection import select_artifacts
 
     winner = select_artifacts(args.candidates, by=args.by, key=args.key, out=args.out)
     print(f"{args.out}: selected {winner}")
@@ -267,7 +273,7 @@ def cmd_select(args: argparse.Namespace) -> int:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
-    from .report import write_check
+    from samplewright.check.render import write_check
 
     write_check(args.data, args.candidates, out=args.out, dataset=args.dataset, column=args.column)
     print(f"{args.out}: check written for {len(args.candidates)} candidate(s)")

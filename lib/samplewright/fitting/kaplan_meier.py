@@ -40,9 +40,9 @@ from typing import Any, Literal, get_args
 
 import numpy as np
 
-from .errors import MethodError
-from .extensions import EXTENSION_METHODS
-from .samplers import Sampler, _check_u
+from samplewright.core.errors import MethodError
+from samplewright.distributions.base import Sampler, _check_u
+from samplewright.fitting.registry import EXTENSION_METHODS
 
 __all__ = [
     "TAIL_RULES",
@@ -391,7 +391,7 @@ def fit_kaplan_meier(
 
 
 def _fit_method(x: np.ndarray, weights: Any, censored: Any, **options: Any) -> KaplanMeierSampler:
-    """The ``kaplan_meier`` entry of :data:`~samplewright.extensions.EXTENSION_METHODS`."""
+    """The ``kaplan_meier`` entry of :data:`~samplewright.fitting.registry.EXTENSION_METHODS`."""
     rule: Any = _tail_option(options)
     return fit_kaplan_meier(x, censored, weights=weights, tail=rule)
 

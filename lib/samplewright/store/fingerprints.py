@@ -24,8 +24,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from samplewright.core.versions import SNAPSHOT_FORMAT_VERSION
+
 if TYPE_CHECKING:  # intake pulls in pandas and pyarrow: only needed when a file is read
-    from .intake import ColumnData, Policy
+    from samplewright.intake.columns import ColumnData, Policy
 
 __all__ = [
     "FINGERPRINT_VERSION",
@@ -35,7 +37,7 @@ __all__ = [
     "fingerprint_file",
 ]
 
-FINGERPRINT_VERSION = 1
+FINGERPRINT_VERSION = SNAPSHOT_FORMAT_VERSION
 CACHE_NAME = "fingerprints.json"
 
 
@@ -128,7 +130,7 @@ class FingerprintCache:
         infinite: Policy = "error",
     ) -> str:
         """Fingerprint of a column of a data file (see :func:`fingerprint_file`)."""
-        from .intake import read_column
+        from samplewright.intake.columns import read_column
 
         path = Path(path)
         if not path.is_file():
@@ -145,7 +147,7 @@ class FingerprintCache:
 
     def fingerprint_knots(self, path: str | Path) -> str:
         """Fingerprint of a user-drawn CDF file (its knots x then p), memoised the same way."""
-        from .fitting import read_knots
+        from samplewright.fitting.api import read_knots
 
         path = Path(path)
 
@@ -176,7 +178,7 @@ def fingerprint_file(
 ) -> str:
     """Fingerprint of a column of a data file, memoised in ``cache_dir``/fingerprints.json.
 
-    Raises the same one-line :class:`~samplewright.errors.InputDataError` as reading would.
+    Raises the same one-line :class:`~samplewright.core.errors.InputDataError` as reading would.
     """
     cache = FingerprintCache(cache_dir)
     fp = cache.fingerprint(

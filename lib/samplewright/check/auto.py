@@ -23,10 +23,10 @@ from typing import Any
 
 import numpy as np
 
-from .errors import MethodError
-from .extensions import EXTENSION_METHODS
-from .families import FAMILIES
-from .samplers import ParametricSampler
+from samplewright.core.errors import MethodError
+from samplewright.distributions.families import FAMILIES
+from samplewright.distributions.parametric import ParametricSampler
+from samplewright.fitting.registry import EXTENSION_METHODS
 
 __all__ = ["default_candidates", "fit_auto"]
 
@@ -54,7 +54,7 @@ def fit_auto(
     x: np.ndarray, w: np.ndarray | None, censored: np.ndarray | None, **options: Any
 ) -> ParametricSampler:
     """Fit every candidate, rank them, return the winner carrying the whole ranking."""
-    from .gof import rank_candidates
+    from samplewright.check.gof import rank_candidates
 
     unknown = sorted(set(options) - _OPTIONS)
     if unknown:
@@ -132,7 +132,7 @@ def fit_auto(
         }
     }
     if best.family in COUNTS or best.family in ("binomial",):
-        from .counts import count_diagnostics
+        from samplewright.fitting.counts import count_diagnostics
 
         diagnostics.update(count_diagnostics(x, w))
     sampler.diagnostics = diagnostics  # type: ignore[attr-defined]

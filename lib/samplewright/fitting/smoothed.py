@@ -61,10 +61,10 @@ from typing import Any
 import numpy as np
 from scipy import special
 
-from .errors import MethodError
-from .extensions import EXTENSION_METHODS, check_values
-from .randomness import SeedLike, make_rng
-from .samplers import Sampler, Size, _check_u
+from samplewright.core.errors import MethodError
+from samplewright.core.randomness import SeedLike, make_rng
+from samplewright.distributions.base import Sampler, Size, _check_u
+from samplewright.fitting.registry import EXTENSION_METHODS, check_values
 
 __all__ = ["BANDWIDTH_RULES", "POSITIVE_MODES", "SmoothedSampler", "bandwidth", "fit_smoothed"]
 

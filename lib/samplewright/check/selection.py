@@ -18,8 +18,8 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-from .artifacts import load_sampler, write_sampler
-from .errors import MethodError
+from samplewright.core.errors import MethodError
+from samplewright.store.artifacts import load_sampler, write_sampler
 
 __all__ = ["SELECTION_RULES", "rank_loaded", "select_artifacts"]
 

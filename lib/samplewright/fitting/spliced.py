@@ -76,11 +76,14 @@ from typing import Any
 
 import numpy as np
 
-from . import _mle
-from .errors import FitError, MethodError
-from .extensions import EXTENSION_METHODS, check_values
-from .families import FAMILIES, fit_family, get_family, loglik
-from .samplers import EmpiricalSampler, ParametricSampler, PiecewiseSampler, Sampler, _check_u
+from samplewright.core.errors import FitError, MethodError
+from samplewright.distributions.base import Sampler, _check_u
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.distributions.families import FAMILIES, fit_family, get_family, loglik
+from samplewright.distributions.parametric import ParametricSampler
+from samplewright.distributions.piecewise import PiecewiseSampler
+from samplewright.fitting import optimise as _mle
+from samplewright.fitting.registry import EXTENSION_METHODS, check_values
 
 __all__ = [
     "BODY_FAMILIES",

@@ -8,9 +8,9 @@ Methods (``method=``):
   minimum and 1 at the maximum and no draw falls outside [min, max]. Its quantile function is the
   "linear" sample quantile (Hyndman & Fan type 7, numpy's default). Tied values become a vertical
   step (an atom) carrying their share of the mass. Weights are not supported.
-* a parametric family name (see :mod:`samplewright.families`): maximum likelihood.
+* a parametric family name (see :mod:`samplewright.distributions.families`): maximum likelihood.
 
-User-drawn CDFs are not fitted: see :func:`samplewright.samplers.from_knots` and
+User-drawn CDFs are not fitted: see :func:`samplewright.distributions.piecewise.from_knots` and
 :func:`read_knots`.
 """
 
@@ -23,9 +23,12 @@ from typing import Any
 
 import numpy as np
 
-from .errors import KnotsError, MethodError
-from .families import FAMILIES, fit_family
-from .samplers import EmpiricalSampler, ParametricSampler, PiecewiseSampler, Sampler
+from samplewright.core.errors import KnotsError, MethodError
+from samplewright.distributions.base import Sampler
+from samplewright.distributions.empirical import EmpiricalSampler
+from samplewright.distributions.families import FAMILIES, fit_family
+from samplewright.distributions.parametric import ParametricSampler
+from samplewright.distributions.piecewise import PiecewiseSampler
 
 __all__ = [
     "NONPARAMETRIC_METHODS",
@@ -46,7 +49,7 @@ NONPARAMETRIC_METHODS: dict[str, tuple[int, frozenset[str]]] = {
 
 def known_methods() -> list[str]:
     """Every method name ``fit`` accepts."""
-    from .catalog import METHODS
+    from samplewright.fitting.catalog import METHODS
 
     return list(METHODS)
 
@@ -100,7 +103,7 @@ def fit(
     if c is not None and c.shape != x.shape:
         raise MethodError(f"censored: expected {x.size} flags, found {c.size}")
 
-    from .extensions import load_extensions
+    from samplewright.fitting.registry import load_extensions
 
     EXTENSION_METHODS = load_extensions()
     if method in EXTENSION_METHODS:
@@ -131,7 +134,7 @@ def fit(
         out = fit_family(method, x, w, **options)
         sampler = ParametricSampler(method, out.params, loglik=out.loglik, aic=out.aic, bic=out.bic)
         if method in COUNT_FAMILIES:
-            from .counts import count_diagnostics
+            from samplewright.fitting.counts import count_diagnostics
 
             sampler.diagnostics = count_diagnostics(x, w)  # type: ignore[attr-defined]
         return sampler
@@ -165,14 +168,14 @@ def read_knots(path: str | Path) -> PiecewiseSampler:
                 f"{path}: expected a mapping with keys x and p, or a list of [x, p] pairs"
             )
     elif suffix in (".csv", ".tsv", ".tab"):
-        from .intake import _to_float, read_raw_columns
+        from samplewright.intake.columns import _to_float, read_raw_columns
 
         cols = read_raw_columns(path, ["x", "p"])
         x, p = _to_float(cols["x"], path, "x"), _to_float(cols["p"], path, "p")
     else:
         raise KnotsError(f"{path}: knots file must be .csv, .tsv or .yaml, found {suffix!r}")
     try:
-        from .samplers import from_knots
+        from samplewright.distributions.piecewise import from_knots
 
         return from_knots(x, p)
     except KnotsError as exc:
@@ -181,7 +184,7 @@ def read_knots(path: str | Path) -> PiecewiseSampler:
 
 def parse_knots_text(text: str) -> PiecewiseSampler:
     """Knots from command-line text ``"x1:p1,x2:p2,..."``."""
-    from .samplers import from_knots
+    from samplewright.distributions.piecewise import from_knots
 
     try:
         pairs = [item.split(":") for item in text.split(",") if item.strip()]

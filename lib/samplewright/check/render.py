@@ -14,8 +14,8 @@ from typing import Any
 
 import numpy as np
 
-from .artifacts import atomic_write, load_sampler
-from .samplers import Sampler
+from samplewright.distributions.base import Sampler
+from samplewright.store.artifacts import atomic_write, load_sampler
 
 __all__ = ["CAUTION", "check_candidates", "format_show", "write_check"]
 
@@ -150,11 +150,11 @@ def check_candidates(
     """
     reference: Sampler | None = None
     if censored is not None and np.any(censored):
-        from .censoring import fit_kaplan_meier
+        from samplewright.fitting.kaplan_meier import fit_kaplan_meier
 
         reference = fit_kaplan_meier(x, censored, weights=weights)
     elif weights is not None:
-        from .samplers import EmpiricalSampler
+        from samplewright.distributions.empirical import EmpiricalSampler
 
         reference = EmpiricalSampler(x, weights)
     if reference is None:
@@ -281,7 +281,7 @@ def write_check(
 
     ``data_path`` is a snapshot (its column is known) or a data file with ``column``.
     """
-    from .snapshots import read_data
+    from samplewright.store.snapshots import read_data
 
     data, _ = read_data(data_path, column)
     samplers = [load_sampler(c) for c in candidates]

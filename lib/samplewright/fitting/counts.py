@@ -2,7 +2,7 @@
 
 * Method ``empirical_pmf`` stores the distinct non-negative integer values seen and their
   (frequency-weighted) shares; it never draws a count that was not observed. Draws, like those of
-  :class:`~samplewright.samplers.EmpiricalSampler`, are float64 holding whole numbers.
+  :class:`~samplewright.distributions.empirical.EmpiricalSampler`, are float64 holding whole numbers.
 * :func:`dispersion_check` is the classical index-of-dispersion test of a Poisson model (Fisher,
   1950, Biometrics 6; Cochran, 1954, Biometrics 10): with ``n`` counts of mean ``m`` and sample
   variance ``s²`` (divisor ``n - 1``), ``D = (n - 1) s² / m = Σ (x - m)² / m`` is approximately
@@ -24,9 +24,9 @@ from typing import Any
 import numpy as np
 from scipy import stats
 
-from .errors import MethodError
-from .extensions import EXTENSION_METHODS
-from .samplers import Sampler, _check_u
+from samplewright.core.errors import MethodError
+from samplewright.distributions.base import Sampler, _check_u
+from samplewright.fitting.registry import EXTENSION_METHODS
 
 __all__ = [
     "DEFAULT_ALPHA",
@@ -296,7 +296,7 @@ def fit_empirical_pmf(counts: Any, *, weights: Any = None) -> EmpiricalPmfSample
 
 
 def _fit_method(x: np.ndarray, weights: Any, censored: Any, **options: Any) -> EmpiricalPmfSampler:
-    """The ``empirical_pmf`` entry of :data:`~samplewright.extensions.EXTENSION_METHODS`."""
+    """The ``empirical_pmf`` entry of :data:`~samplewright.fitting.registry.EXTENSION_METHODS`."""
     if options:
         raise MethodError(f"unknown option {sorted(options)[0]!r} for method {_NAME!r}")
     if censored is not None and np.any(censored):

@@ -70,9 +70,9 @@ from typing import Any
 import numpy as np
 from scipy import special, stats
 
-from . import _mle
-from ._mle import Kind, wmean
-from .errors import FitError, MethodError
+from samplewright.core.errors import FitError, MethodError
+from samplewright.fitting import optimise as _mle
+from samplewright.fitting.optimise import Kind, wmean
 
 __all__ = ["FAMILIES", "FIT_OPTIONS", "Family", "FitOutcome", "fit_family", "get_family", "loglik"]
 

@@ -25,7 +25,7 @@ parameters were estimated, so classical tables do not apply): ``B`` replicates o
 ``p = (1 + #{T* >= T} + n_failed) / (1 + B)``; a replicate whose refit fails counts as exceeding
 (conservative). Replicates of normal, and of lognormal and exponential with a fixed location, are
 refitted in closed form for a whole batch at once; the others one by one. Randomness comes only
-from the ``rng`` argument (a numpy Generator or anything :func:`~samplewright.randomness.make_rng`
+from the ``rng`` argument (a numpy Generator or anything :func:`~samplewright.core.randomness.make_rng`
 accepts); the same seed and ``batch`` give the same p-values.
 """
 
@@ -39,9 +39,9 @@ from typing import Any, Literal
 import numpy as np
 from scipy import special
 
-from .errors import FitError, MethodError
-from .families import Family, FitOutcome, fit_family, get_family
-from .randomness import SeedLike, make_rng
+from samplewright.core.errors import FitError, MethodError
+from samplewright.core.randomness import SeedLike, make_rng
+from samplewright.distributions.families import Family, FitOutcome, fit_family, get_family
 
 __all__ = [
     "CandidateResult",
@@ -301,7 +301,7 @@ def goodness_of_fit(
     values : array_like
         1-d finite data.
     family : str
-        A family name (see :mod:`samplewright.families`).
+        A family name (see :mod:`samplewright.distributions.families`).
     n_resamples : int, default 199
         Bootstrap replicates ``B``; the smallest attainable p-value is ``1 / (B + 1)``.
     rng : None, int, SeedSequence or Generator

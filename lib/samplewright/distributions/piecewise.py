@@ -1,0 +1,176 @@
+"""Piecewise-linear CDFs given by knots: user-drawn curves and the interpolated method."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from samplewright.core.errors import KnotsError
+from samplewright.distributions.base import Sampler, _check_u
+
+__all__ = ["PiecewiseSampler", "from_knots"]
+
+# ---------------------------------------------------------------------------------------------
+
+
+class PiecewiseSampler(Sampler):
+    """A CDF given by knots ``(x[i], p[i])``, linear between knots.
+
+    ``x`` and ``p`` must be non-decreasing, ``p`` must start at 0 and end at 1. Between two knots
+    with ``x[i] < x[i+1]`` the mass ``p[i+1] - p[i]`` is spread uniformly (none if the segment is
+    flat); two knots with the same ``x`` and rising ``p`` make an atom at that x.
+
+    >>> s = PiecewiseSampler([0, 1, 1, 3], [0, 0.5, 0.75, 1])
+    >>> s.cdf([0.5, 1, 2]).tolist()
+    [0.25, 0.75, 0.875]
+    >>> s.quantile([0.25, 0.6, 0.875]).tolist()
+    [0.5, 1.0, 2.0]
+    """
+
+    kind = "piecewise"
+
+    def __init__(self, x: Any, p: Any, *, method: str = "knots") -> None:
+        self.x, self.p = _validate_knots(x, p)
+        m = self.x.size - 1
+        # p equally spaced (the interpolated method): the segment index is arithmetic
+        self._equal = bool(np.array_equal(self.p, np.arange(m + 1, dtype=np.float64) / m))
+        self.method = method
+        dp = np.diff(self.p)
+        self.params = {
+            "n_knots": int(self.x.size),
+            "n_atoms": int(np.sum((np.diff(self.x) == 0) & (dp > 0))),
+        }
+
+    def cdf(self, q: Any) -> np.ndarray:
+        q = np.asarray(q, dtype=np.float64)
+        x, p = self.x, self.p
+        i = np.searchsorted(x, q, side="right") - 1  # last knot with x <= q
+        inside = (i >= 0) & (i < x.size - 1)
+        j = np.clip(i, 0, x.size - 2)
+        x0, x1, p0, p1 = x[j], x[j + 1], p[j], p[j + 1]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            frac = np.where(x1 > x0, (q - x0) / (x1 - x0), 0.0)
+        mid = p0 + (p1 - p0) * frac
+        return np.where(inside, mid, np.where(i < 0, 0.0, 1.0))
+
+    def quantile(self, u: Any) -> np.ndarray:
+        u = _check_u(u)
+        x, p = self.x, self.p
+        if self._equal:
+            m = x.size - 1
+            t = u * m
+            j = np.minimum(np.floor(t), m - 1).astype(np.intp)
+            x0 = x[j]
+            return x0 + (x[j + 1] - x0) * (t - j)
+        k = np.searchsorted(p, u, side="left")  # first knot with p >= u
+        k = np.clip(k, 1, x.size - 1)
+        x0, x1, p0, p1 = x[k - 1], x[k], p[k - 1], p[k]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            frac = np.where(p1 > p0, (u - p0) / (p1 - p0), 1.0)
+        out = x0 + (x1 - x0) * frac
+        # u == 0 maps to the lower end of the support (the last knot with p == 0).
+        return np.where(u <= 0, self.support[0], out)
+
+    def pdf(self, q: Any) -> np.ndarray:
+        """Density of the continuous part (atoms excluded; see :meth:`pmf`)."""
+        q = np.asarray(q, dtype=np.float64)
+        x, p = self.x, self.p
+        i = np.searchsorted(x, q, side="right") - 1
+        inside = (i >= 0) & (i < x.size - 1)
+        j = np.clip(i, 0, x.size - 2)
+        dx = x[j + 1] - x[j]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            dens = np.where(dx > 0, (p[j + 1] - p[j]) / dx, 0.0)
+        return np.where(inside, dens, 0.0)
+
+    def pmf(self, q: Any) -> np.ndarray:
+        """Mass of the atoms at ``q`` (0 where there is none)."""
+        q = np.asarray(q, dtype=np.float64)
+        lo = np.searchsorted(self.x, q, side="left")
+        hi = np.searchsorted(self.x, q, side="right")
+        # Knots lo..hi-1 sit at q; the jump there is p[hi-1] - p[lo] (F is continuous elsewhere).
+        top = self.p[np.clip(hi - 1, 0, self.x.size - 1)]
+        bottom = self.p[np.clip(lo, 0, self.x.size - 1)]
+        return np.where(hi > lo, top - bottom, 0.0)
+
+    def _moment(self, power: int) -> float:
+        x0, x1 = self.x[:-1], self.x[1:]
+        dp = np.diff(self.p)
+        if power == 1:
+            seg = (x0 + x1) / 2.0
+        else:
+            seg = (x0 * x0 + x0 * x1 + x1 * x1) / 3.0
+        return float(np.sum(dp * seg))
+
+    @property
+    def mean(self) -> float:
+        return self._moment(1)
+
+    @property
+    def var(self) -> float:
+        return max(self._moment(2) - self.mean**2, 0.0)
+
+    @property
+    def support(self) -> tuple[float, float]:
+        lo = self.x[np.flatnonzero(self.p <= 0)[-1]]
+        hi = self.x[np.flatnonzero(self.p >= 1)[0]]
+        return float(lo), float(hi)
+
+    def payload(self) -> dict[str, np.ndarray]:
+        return {"x": self.x, "p": self.p}
+
+    @classmethod
+    def from_payload(cls, payload: dict[str, np.ndarray], described: dict[str, Any]) -> Sampler:
+        return cls(payload["x"], payload["p"], method=described["method"])
+
+
+def _validate_knots(x: Any, p: Any) -> tuple[np.ndarray, np.ndarray]:
+    try:
+        xa = np.asarray(x, dtype=np.float64).ravel()
+        pa = np.asarray(p, dtype=np.float64).ravel()
+    except (TypeError, ValueError) as exc:
+        raise KnotsError(f"knots: x and p must be numbers ({exc})") from None
+    if xa.size != pa.size:
+        raise KnotsError(f"knots: x has {xa.size} points but p has {pa.size}")
+    if xa.size < 2:
+        raise KnotsError(f"knots: at least 2 points are needed, found {xa.size}")
+    for name, arr in (("x", xa), ("p", pa)):
+        bad = np.flatnonzero(~np.isfinite(arr))
+        if bad.size:
+            raise KnotsError(f"knots: point {bad[0] + 1} has a non-finite {name} ({arr[bad[0]]})")
+    bad = np.flatnonzero(np.diff(xa) < 0)
+    if bad.size:
+        i = bad[0] + 1
+        raise KnotsError(
+            f"knots: x must be non-decreasing, but point {i + 1} (x={xa[i]:g}) is below "
+            f"point {i} (x={xa[i - 1]:g})"
+        )
+    bad = np.flatnonzero(np.diff(pa) < 0)
+    if bad.size:
+        i = bad[0] + 1
+        raise KnotsError(
+            f"knots: p must be non-decreasing, but point {i + 1} (p={pa[i]:g}) is below "
+            f"point {i} (p={pa[i - 1]:g})"
+        )
+    bad = np.flatnonzero((pa < 0) | (pa > 1))
+    if bad.size:
+        raise KnotsError(f"knots: point {bad[0] + 1} has p={pa[bad[0]]:g}, outside [0, 1]")
+    if pa[0] != 0.0:
+        raise KnotsError(f"knots: the first point must have p=0, found p={pa[0]:g}")
+    if pa[-1] != 1.0:
+        raise KnotsError(f"knots: the last point must have p=1, found p={pa[-1]:g}")
+    return xa, pa
+
+
+def from_knots(x: Any, p: Any) -> PiecewiseSampler:
+    """A sampler from a user-drawn CDF: knots ``x`` (values) and ``p`` (cumulative probability).
+
+    >>> s = from_knots([2, 4, 4, 10], [0, 0.5, 0.5, 1])  # a flat part is allowed
+    >>> float(s.mean)
+    5.0
+    """
+    return PiecewiseSampler(x, p, method="knots")
+
+
+# ---------------------------------------------------------------------------------------------
