@@ -19,7 +19,7 @@ from statsmodels.distributions.copula.api import GaussianCopula, StudentTCopula
 from statsmodels.stats.correlation_tools import corr_nearest
 
 from samplewright.core.uniforms import draw_uniforms
-from samplewright.fit.copulas import (
+from samplewright.fitting.copulas import (
     copula_correlation,
     copula_log_likelihood,
     fit_gaussian_copula,
@@ -28,7 +28,7 @@ from samplewright.fit.copulas import (
     pseudo_observations,
     t_copula_uniforms,
 )
-from samplewright.fit.coupling import iman_conover, nearest_correlation
+from samplewright.fitting.coupling import iman_conover, nearest_correlation
 
 HIGHAM_A = np.array([[1.0, 1.0, 0.0], [1.0, 1.0, 1.0], [0.0, 1.0, 1.0]])
 R3 = np.array([[1.0, 0.5, 0.2], [0.5, 1.0, -0.3], [0.2, -0.3, 1.0]])  # invented, PD
