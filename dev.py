@@ -1,8 +1,10 @@
 #!/usr/bin/env python3
 """Project entry point for people and CI: sets up ./.venv on first use, then runs a task.
 
-    python3 dev.py demo    run the example pipeline end to end (example_pipeline/)
-    python3 dev.py test    run the whole test suite (slow cases included)
+    python3 dev.py demo            run the example pipeline end to end (example_pipeline/)
+    python3 dev.py test [ARGS]     run the whole test suite (slow cases included); ARGS go to pytest
+    python3 dev.py check           ruff (lint and format), mypy on lib/, the package-shape tests
+    python3 dev.py bench [--quick] every benchmark, one table of ratios against named baselines
 
 Only the Python standard library is used here, so it runs on a machine that has nothing but
 Python 3.11+ and pip. The environment is rebuilt when pyproject.toml changes.
@@ -51,14 +53,49 @@ def run(cmd: list[str], cwd: Path = ROOT) -> int:
     return subprocess.run(cmd, cwd=cwd, env=env).returncode
 
 
+def check() -> int:
+    """Lint, format check, type check and the package-shape tests; stops at the first failure."""
+    paths = ["lib", "tests", "benchmarks", "dev.py"]
+    steps = [
+        [str(BIN / "ruff"), "check", *paths],
+        [str(BIN / "ruff"), "format", "--check", *paths],
+        [str(BIN / "mypy"), "lib"],
+        [
+            str(PY),
+            "-m",
+            "pytest",
+            "-q",
+            "-p",
+            "no:cacheprovider",
+            "tests/unit/test_layers.py",
+            "tests/unit/test_public_api.py",
+        ],
+    ]
+    for step in steps:
+        print(
+            "dev.py check:",
+            " ".join(Path(step[0]).name if i == 0 else a for i, a in enumerate(step)),
+            flush=True,
+        )
+        rc = run(step)
+        if rc:
+            return rc
+    print("dev.py check: all green")
+    return 0
+
+
 def main(argv: list[str]) -> int:
-    if not argv or argv[0] not in {"demo", "test"}:
+    if not argv or argv[0] not in {"demo", "test", "check", "bench"}:
         print(__doc__)
         return 2
     ensure_venv()
     task, rest = argv[0], argv[1:]
     if task == "test":
         return run([str(PY), "-m", "pytest", *rest])
+    if task == "check":
+        return check()
+    if task == "bench":
+        return run([str(PY), str(ROOT / "benchmarks" / "run.py"), *rest])
     demo = ROOT / "example_pipeline"
     rc = run([str(PY), "make_data.py"], cwd=demo)  # invented data, fixed seed, only if missing
     if rc:

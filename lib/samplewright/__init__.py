@@ -42,6 +42,7 @@ _LAZY = {
     "known_methods": "fitting.api",
     "load_sampler": "store.artifacts",
     "make_rng": "core.randomness",
+    "rank_candidates": "check.gof",
     "read_column": "intake.columns",
     "read_knots": "fitting.api",
     "read_metadata": "store.artifacts",
@@ -52,7 +53,7 @@ _LAZY = {
 }
 
 if TYPE_CHECKING:  # pragma: no cover
-    from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit
+    from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit, rank_candidates
     from samplewright.core.randomness import make_rng, stream_rng
     from samplewright.distributions.base import Sampler
     from samplewright.distributions.empirical import EmpiricalSampler
@@ -105,6 +106,7 @@ __all__ = [
     "known_methods",
     "load_sampler",
     "make_rng",
+    "rank_candidates",
     "read_column",
     "read_knots",
     "read_metadata",
