@@ -1,4 +1,4 @@
-"""Monte Carlo error of a statistic of simulated draws: how precise is it, how many draws are needed.
+"""Monte Carlo error of a statistic of simulated draws: its precision, and the draws needed.
 
 The draws of a simulation are independent, so each named statistic (see
 :mod:`samplewright.resample.statistics`) has a standard error from its large-sample theory:
@@ -106,7 +106,7 @@ def mc_error(
     >>> x = np.random.default_rng(0).normal(10.0, 2.0, 10_000)
     >>> r = mc_error(x, "mean", target_relative_error=0.001)
     >>> round(r.standard_error, 3), r.n_draws_needed
-    (0.02, 3953)
+    (0.02, 39750)
     """
     x = check_values(draws, "draws")
     level = check_level(confidence_level)
@@ -118,7 +118,7 @@ def mc_error(
         low, high = _order_statistic_interval(x, stat, level)
         se = (high - low) / (2.0 * z)
     elif stat.name == "exceedance":
-        k = int(np.count_nonzero(x > stat._p))
+        k = int(np.count_nonzero(x > stat.parameter))
         se = math.sqrt(estimate * (1.0 - estimate) / n)
         tail = (1.0 - level) / 2.0
         low = float(stats.beta.ppf(tail, k, n - k + 1)) if k > 0 else 0.0
@@ -147,7 +147,7 @@ def _smooth_standard_error(x: np.ndarray, stat: NamedStatistic, estimate: float)
         m2 = float(np.mean(d * d))
         m4 = float(np.mean(d**4))
         return 0.0 if m2 == 0.0 else math.sqrt(max(m4 - m2 * m2, 0.0) / n) / (2.0 * math.sqrt(m2))
-    p = stat._p
+    p = stat.parameter
     j = order_index(n, p)
     part = np.partition(x, j)
     beyond = n - j - 1
@@ -165,7 +165,7 @@ def _order_statistic_interval(
     x: np.ndarray, stat: NamedStatistic, level: float
 ) -> tuple[float, float]:
     """Distribution-free interval ``[x_(l), x_(u)]`` for the p-quantile (0-based ranks)."""
-    n, p = x.size, stat._p
+    n, p = x.size, stat.parameter
     tail = (1.0 - level) / 2.0
     if not 0.0 < p < 1.0:
         raise MethodError(
