@@ -42,7 +42,7 @@ _LAZY = {
     "known_methods": "fitting.api",
     "load_sampler": "store.artifacts",
     "make_rng": "core.randomness",
-    "rank_candidates": "check.gof",
+    "rank_candidates": "check.compare",
     "read_column": "intake.columns",
     "read_knots": "fitting.api",
     "read_metadata": "store.artifacts",
@@ -53,7 +53,8 @@ _LAZY = {
 }
 
 if TYPE_CHECKING:  # pragma: no cover
-    from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit, rank_candidates
+    from samplewright.check.compare import rank_candidates
+    from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit
     from samplewright.core.randomness import make_rng, stream_rng
     from samplewright.distributions.base import Sampler
     from samplewright.distributions.empirical import EmpiricalSampler

@@ -17,8 +17,9 @@ import statsmodels.api as sm
 from scipy import stats
 from statsmodels.datasets import cpunish, randhie
 
+from samplewright.check.dispersion import dispersion_check
 from samplewright.core.randomness import make_rng
-from samplewright.fitting.counts import dispersion_check, fit_empirical_pmf
+from samplewright.fitting.counts import fit_empirical_pmf
 
 
 def _mdvis() -> np.ndarray:

@@ -15,7 +15,8 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
-from samplewright.distributions.families import FAMILIES, fit_family, get_family, loglik
+from samplewright.distributions.families import FAMILIES, get_family
+from samplewright.fitting.mle import fit_family, loglik
 
 # family -> (scipy distribution, true parameters for generated data, fixed scipy fit arguments)
 CONTINUOUS = {

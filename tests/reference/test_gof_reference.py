@@ -17,7 +17,8 @@ import pytest
 from scipy import integrate, stats
 
 from samplewright.check.gof import _bootstrap, edf_statistics, goodness_of_fit
-from samplewright.distributions.families import fit_family, get_family
+from samplewright.distributions.families import get_family
+from samplewright.fitting.mle import fit_family
 
 # (case, statistic, upper-tail probability, critical value of the modified statistic)
 CRITICAL = [

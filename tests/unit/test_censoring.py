@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.fitting.kaplan_meier: the Kaplan–Meier sampler and its tail rules.
+"""Unit tests of the Kaplan–Meier method: its sampler, its fit and its tail rules.
 
 Small data sets are invented; expected values are hand computations of the product-limit
 formula (common practice, no source). Checks against lifelines, scipy and published numbers are
@@ -17,14 +17,11 @@ from scipy import integrate
 
 import samplewright as sw
 from samplewright.core.errors import MethodError
-from samplewright.distributions.base import SAMPLER_KINDS
+from samplewright.distributions.choices import TAIL_RULES
 from samplewright.distributions.empirical import EmpiricalSampler
-from samplewright.fitting.kaplan_meier import (
-    TAIL_RULES,
-    KaplanMeierSampler,
-    estimate_survival,
-    fit_kaplan_meier,
-)
+from samplewright.distributions.kaplan_meier import KaplanMeierSampler
+from samplewright.fitting.kaplan_meier import estimate_survival, fit_kaplan_meier
+from samplewright.fitting.registry import sampler_class
 
 Cli = Callable[..., tuple[int, str, str]]
 
@@ -199,7 +196,7 @@ def test_diagnostics_report_counts_and_the_tail_rule() -> None:
 def test_artifact_round_trip_keeps_sampler_and_hash(tmp_path: Path, tail: str) -> None:
     """Written and reloaded, the sampler is identical and rewriting it gives the same hash."""
     s = _sampler(tail)
-    assert SAMPLER_KINDS["kaplan_meier"] is KaplanMeierSampler
+    assert sampler_class("kaplan_meier") is KaplanMeierSampler
     json.dumps(s.describe(), allow_nan=False)
     m1 = sw.write_sampler(s, tmp_path / "a.parquet", diagnostics=s.diagnostics)
     back = sw.load_sampler(tmp_path / "a.parquet")
@@ -247,7 +244,7 @@ def test_cli_fit_with_a_censor_column_records_diagnostics(tmp_path: Path, run_cl
             {"tail": "linear"},
             r"option 'tail' of kaplan_meier: expected one of at_last, exponential",
         ),
-        ({"smooth": 1}, r"unknown option 'smooth' for method 'kaplan_meier'"),
+        ({"smooth": 1}, r"^unknown option 'smooth' for kaplan_meier \(allowed: tail\)$"),
     ],
 )
 def test_bad_options_are_named(kwargs: dict[str, object], pattern: str) -> None:
@@ -262,12 +259,12 @@ def test_bad_inputs_are_named() -> None:
         fit_kaplan_meier([1.0, 2.0], [0, 2])
     with pytest.raises(MethodError, match=r"^censored: expected 2 flags, found 3$"):
         fit_kaplan_meier([1.0, 2.0], [0, 1, 0])
-    with pytest.raises(MethodError, match=r"^weights: .* weight 2 is 0.0$"):
-        fit_kaplan_meier([1.0, 2.0], None, weights=[1.0, 0.0])
+    with pytest.raises(MethodError, match=r"^weights: .* weight 2 is -1.0$"):
+        fit_kaplan_meier([1.0, 2.0], None, weights=[1.0, -1.0])
     with pytest.raises(MethodError, match=r"^censored: every value is censored"):
         fit_kaplan_meier([1.0, 2.0], [True, True])
     with pytest.raises(MethodError, match=r"'tail'='exponential' .* found -1.0$"):
         fit_kaplan_meier([-1.0, 2.0, 3.0], [False, False, True], tail="exponential")
-    with pytest.raises(MethodError, match=r"values must be finite; value 2 is nan"):
+    with pytest.raises(MethodError, match=r"^values: every value must be finite; value 2 is nan$"):
         fit_kaplan_meier([1.0, np.nan])
     fit_kaplan_meier([-1.0, 2.0, 3.0], [False, False, True])  # at_last accepts any real values

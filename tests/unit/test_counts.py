@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.fitting.counts: the empirical pmf sampler and the dispersion check.
+"""Unit tests of count data: the empirical pmf method and the index-of-dispersion check.
 
 Small data sets are invented; expected values are hand computations (common practice, no
 source). Checks against statsmodels, scipy and published data are in
@@ -15,16 +15,12 @@ import numpy as np
 import pytest
 
 import samplewright as sw
+from samplewright.check.dispersion import DispersionResult, count_diagnostics, dispersion_check
 from samplewright.core.errors import MethodError
-from samplewright.distributions.base import SAMPLER_KINDS
 from samplewright.distributions.empirical import EmpiricalSampler
-from samplewright.fitting.counts import (
-    DispersionResult,
-    EmpiricalPmfSampler,
-    count_diagnostics,
-    dispersion_check,
-    fit_empirical_pmf,
-)
+from samplewright.distributions.empirical_pmf import EmpiricalPmfSampler
+from samplewright.fitting.counts import fit_empirical_pmf
+from samplewright.fitting.registry import sampler_class
 
 Cli = Callable[..., tuple[int, str, str]]
 
@@ -82,8 +78,8 @@ def test_draws_are_observed_counts_with_the_right_frequencies() -> None:
     [
         ([0, 2, 2.5, -1], r"^empirical_pmf: counts must be non-negative integers; value 3 is 2.5$"),
         ([0, -3, 1.5], r"^empirical_pmf: .* value 2 is -3.0$"),
-        ([1, np.inf], r"^empirical_pmf: .* value 2 is inf$"),
-        ([], r"^empirical_pmf: at least 1 count is needed, found 0$"),
+        ([1, np.inf], r"^values: every value must be finite; value 2 is inf$"),
+        ([], r"^empirical_pmf needs at least 1 value, found 0$"),
     ],
 )
 def test_bad_counts_name_the_first_offender(values: list[float], pattern: str) -> None:
@@ -96,9 +92,9 @@ def test_fit_dispatch_refuses_censoring_and_options() -> None:
     """sw.fit dispatches empirical_pmf, and refuses censored counts and unknown options."""
     assert isinstance(sw.fit(CALLS, method="empirical_pmf"), EmpiricalPmfSampler)
     assert "empirical_pmf" in sw.known_methods()
-    with pytest.raises(MethodError, match=r"^censored: method 'empirical_pmf' does not take"):
+    with pytest.raises(MethodError, match=r"^censored: method 'empirical_pmf' does not handle"):
         sw.fit(CALLS, method="empirical_pmf", censored=CALLS > 5)
-    with pytest.raises(MethodError, match=r"^unknown option 'alpha' for method 'empirical_pmf'$"):
+    with pytest.raises(MethodError, match=r"^unknown option 'alpha' for empirical_pmf \(allowed:"):
         sw.fit(CALLS, method="empirical_pmf", alpha=0.1)
 
 
@@ -177,10 +173,18 @@ def test_sampler_diagnostics_equal_the_check_on_the_raw_counts() -> None:
     assert s.diagnostics["dispersion"]["overdispersed"] is True
 
 
+@pytest.mark.parametrize("method", ["poisson", "negative_binomial", "geometric"])
+def test_count_families_fitted_through_fit_carry_the_dispersion_check(method: str) -> None:
+    """fit adds the dispersion check the catalog names for count families, and only for them."""
+    s = sw.fit(CALLS, method)
+    assert s.diagnostics == {"dispersion": dispersion_check(CALLS).as_dict()}
+    assert sw.fit(CALLS + 0.5, "gamma").diagnostics == {}
+
+
 def test_artifact_round_trip_keeps_sampler_diagnostics_and_hash(tmp_path: Path) -> None:
     """Reloaded, sampler and diagnostics are identical; a rewrite has the same hash."""
     s = fit_empirical_pmf(CALLS, weights=np.linspace(0.5, 2.0, CALLS.size))
-    assert SAMPLER_KINDS["empirical_pmf"] is EmpiricalPmfSampler
+    assert sampler_class("empirical_pmf") is EmpiricalPmfSampler
     m1 = sw.write_sampler(s, tmp_path / "a.parquet", diagnostics=s.diagnostics)
     back = sw.load_sampler(tmp_path / "a.parquet")
     assert isinstance(back, EmpiricalPmfSampler)

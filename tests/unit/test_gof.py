@@ -6,17 +6,12 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from samplewright.check import gof
-from samplewright.check.gof import (
-    STATISTICS,
-    CandidateResult,
-    GoodnessOfFitResult,
-    edf_statistics,
-    goodness_of_fit,
-    rank_candidates,
-)
-from samplewright.core.errors import MethodError
-from samplewright.distributions.families import FitOutcome, fit_family, get_family
+from samplewright.check import compare, gof
+from samplewright.check.compare import CandidateResult, rank_candidates
+from samplewright.check.gof import STATISTICS, GoodnessOfFitResult, edf_statistics, goodness_of_fit
+from samplewright.core.errors import FitError, MethodError
+from samplewright.distributions.families import get_family
+from samplewright.fitting.mle import FamilyFitResult, fit_family
 
 
 def _slow_statistics(x: np.ndarray, cdf) -> np.ndarray:
@@ -31,9 +26,10 @@ def _slow_statistics(x: np.ndarray, cdf) -> np.ndarray:
 
 
 def test_all_is_sorted():
-    """The module's __all__ is sorted (house style) and names only public objects."""
-    assert gof.__all__ == sorted(gof.__all__)
-    assert all(hasattr(gof, n) for n in gof.__all__)
+    """The modules' __all__ are sorted (house style) and name only public objects."""
+    for module in (gof, compare):
+        assert module.__all__ == sorted(module.__all__)
+        assert all(hasattr(module, n) for n in module.__all__)
 
 
 def test_step_formula_equals_textbook_sums_without_ties():
@@ -164,7 +160,7 @@ def test_failed_refits_count_as_exceeding(monkeypatch):
     def flaky(name, x, w=None, **options):
         calls["n"] += 1
         if calls["n"] > 1 and calls["n"] % 3 == 0:
-            raise gof.FitError("test: refused on purpose")
+            raise FitError("test: refused on purpose")
         return real(name, x, w, **options)
 
     monkeypatch.setattr(gof, "fit_family", flaky)
@@ -213,11 +209,11 @@ def test_ties_go_to_fewer_parameters_then_listed_order(monkeypatch):
 
     def fit(name, x, w=None, **options):
         k, ll = fake[name]
-        return FitOutcome(name, {"p": 1.0}, ll + k, k, 10.0)  # every AIC = 20 - 2 ll - ...
+        return FamilyFitResult(name, {"p": 1.0}, ll + k, k, 10.0)  # every AIC = 20 - 2 ll - ...
 
-    monkeypatch.setattr(gof, "fit_family", fit)
-    monkeypatch.setattr(gof, "get_family", lambda n: get_family("normal"))
-    monkeypatch.setattr(gof, "edf_statistics", lambda *a, **k: {})
+    monkeypatch.setattr(compare, "fit_family", fit)
+    monkeypatch.setattr(compare, "get_family", lambda n: get_family("normal"))
+    monkeypatch.setattr(compare, "edf_statistics", lambda *a, **k: {})
     ranked = rank_candidates(np.arange(10.0), ["a3", "c2", "b2", "d1"])
     # AIC = 2k - 2(ll + k) = -2 ll: a3 20, b2 22, c2 22, d1 10
     assert [c.family for c in ranked] == ["d1", "a3", "c2", "b2"]

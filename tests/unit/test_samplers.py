@@ -2,15 +2,22 @@
 
 from __future__ import annotations
 
+import functools
+import json
+
 import numpy as np
 import pytest
 from scipy import stats
 
+import samplewright as sw
 from samplewright.core.errors import KnotsError, MethodError
-from samplewright.distributions.base import SAMPLER_KINDS
+from samplewright.distributions.base import SAMPLER_KINDS, Sampler
 from samplewright.distributions.empirical import EmpiricalSampler
 from samplewright.distributions.parametric import ParametricSampler
 from samplewright.distributions.piecewise import PiecewiseSampler, from_knots
+from samplewright.distributions.smoothed import SmoothedSampler
+from samplewright.distributions.steps import draw_indices, step_cdf, step_index, step_mass
+from samplewright.fitting.registry import load_sampler_kinds
 
 
 def _all_samplers() -> list[object]:
@@ -97,13 +104,13 @@ def test_empirical_pmf_counts_ties() -> None:
 @pytest.mark.parametrize(
     ("values", "weights", "message"),
     [
-        ([], None, "at least 1 value is needed, found 0"),
-        ([1.0, np.nan], None, "every value must be finite"),
-        ([1.0, np.inf], None, "every value must be finite"),
-        ([1.0, 2.0], [1.0], "expected 2 weights, found 1"),
-        ([1.0, 2.0], [1.0, 0.0], "every weight must be finite and > 0"),
-        ([1.0, 2.0], [1.0, -1.0], "every weight must be finite and > 0"),
-        ([1.0, 2.0], [1.0, np.nan], "every weight must be finite and > 0"),
+        ([], None, "^empirical needs at least 1 value, found 0$"),
+        ([1.0, np.nan], None, "^values: every value must be finite; value 2 is nan$"),
+        ([1.0, np.inf], None, "^values: every value must be finite; value 2 is inf$"),
+        ([1.0, 2.0], [1.0], "^weights: expected 2 weights, found 1$"),
+        ([1.0, 2.0], [0.0, 0.0], "^weights: expected at least one weight > 0, found all 0$"),
+        ([1.0, 2.0], [1.0, -1.0], "^weights: expected finite non-negative weights; weight 2 is"),
+        ([1.0, 2.0], [1.0, np.nan], "^weights: expected finite non-negative weights; weight 2 is"),
     ],
 )
 def test_empirical_rejects_bad_input(
@@ -112,6 +119,15 @@ def test_empirical_rejects_bad_input(
     """Empty, non-finite values and bad weights raise MethodError with a precise message."""
     with pytest.raises(MethodError, match=message):
         EmpiricalSampler(values, weights)
+
+
+def test_empirical_drops_rows_of_weight_zero() -> None:
+    """A row of weight 0 is dropped: the sampler equals the one built without it."""
+    a = EmpiricalSampler([1.0, 5.0, 2.0, 3.0], [1.0, 0.0, 2.0, 1.0])
+    b = EmpiricalSampler([1.0, 2.0, 3.0], [1.0, 2.0, 1.0])
+    np.testing.assert_array_equal(a.values, b.values)
+    np.testing.assert_array_equal(a.weights, b.weights)  # type: ignore[arg-type]
+    assert a.params == b.params == {"n": 3, "weighted": True}
 
 
 def test_piecewise_counts_knots_and_atoms() -> None:
@@ -209,3 +225,152 @@ def test_repr_names_class_method_and_params() -> None:
     assert repr(from_knots([0, 1], [0, 1])) == (
         "<PiecewiseSampler method='knots' params={'n_knots': 2, 'n_atoms': 0}>"
     )
+
+
+# --- draw: one template for every kind ----------------------------------------------------------
+
+
+class _Fixed:
+    """A uniform source that hands out given uniforms (a stand-in for quasi-random points)."""
+
+    def __init__(self, u: np.ndarray) -> None:
+        self.u = np.asarray(u, dtype=np.float64)
+
+    def uniforms(self, shape: tuple[int, ...]) -> np.ndarray:
+        return self.u[: int(np.prod(shape))].reshape(shape)
+
+
+@functools.cache
+def _every_kind() -> list[Sampler]:
+    x = np.random.default_rng(4).gamma(2.0, 3.0, 400)
+    c = np.random.default_rng(5).random(400) < 0.2
+    return [
+        sw.fit(x, "empirical"),
+        sw.fit(x, "empirical", weights=np.arange(1.0, 401.0)),
+        sw.fit(x, "interpolated"),
+        sw.fit(x, "gamma"),
+        sw.fit(x, "spliced", threshold_quantile=0.9),
+        sw.fit(x, "smoothed"),
+        sw.fit(x, "kaplan_meier", censored=c),
+        sw.fit(np.round(x), "empirical_pmf"),
+    ]
+
+
+def test_every_kind_is_covered_and_none_overrides_draw() -> None:
+    """draw is defined once, on the base class; the kinds supply quantile and a native path."""
+    assert {s.kind for s in _every_kind()} <= set(load_sampler_kinds())
+    samplers = [c for c in load_sampler_kinds().values() if issubclass(c, Sampler)]
+    assert len(samplers) >= 7
+    for cls in samplers:
+        assert "draw" not in cls.__dict__, cls.__name__
+
+
+@pytest.mark.parametrize("sampler", _every_kind(), ids=lambda s: f"{s.kind}-{s.method}")
+def test_a_uniform_source_is_transformed_by_the_quantile(sampler: Sampler) -> None:
+    """With a uniform source, draw(size) is quantile of the source's uniforms, in its shape."""
+    u = np.random.default_rng(9).random(12)
+    d = sampler.draw((3, 4), rng=_Fixed(u))
+    assert d.shape == (3, 4)
+    np.testing.assert_array_equal(d, np.asarray(sampler.quantile(u)).reshape(3, 4))
+
+
+def test_sobol_points_through_a_normal_sampler_are_scipys_normal_quantiles() -> None:
+    """Scrambled Sobol' points from scipy.stats.qmc become scipy's norm.ppf of the same points."""
+
+    class Sobol:
+        def __init__(self, seed: int) -> None:
+            self.engine = stats.qmc.Sobol(1, scramble=True, seed=seed)
+
+        def uniforms(self, shape: tuple[int, ...]) -> np.ndarray:
+            return self.engine.random(int(np.prod(shape))).reshape(shape)
+
+    s = ParametricSampler("normal", {"mu": 10.0, "sigma": 2.0})
+    d = s.draw(1024, rng=Sobol(3))
+    points = stats.qmc.Sobol(1, scramble=True, seed=3).random(1024).ravel()
+    np.testing.assert_array_equal(d, stats.norm(10.0, 2.0).ppf(points))  # source: scipy.stats
+    # balanced points: the error is far below the Monte Carlo standard error 2 / sqrt(1024) = 0.06
+    assert abs(d.mean() - 10.0) < 0.01
+
+
+def test_a_uniform_source_of_the_wrong_shape_is_refused() -> None:
+    """A source that returns another shape than asked is refused, naming rng."""
+
+    class Short:
+        def uniforms(self, shape: tuple[int, ...]) -> np.ndarray:
+            return np.full(3, 0.5)
+
+    with pytest.raises(ValueError, match=r"^rng: the uniform source gave shape \(3,\), expected"):
+        EmpiricalSampler([1.0, 2.0]).draw(5, rng=Short())
+
+
+def test_native_draws_are_numpys_own_generators() -> None:
+    """With a Generator, unweighted empirical draws are numpy's integers and a normal's numpy's
+    normal: the native paths (reference: numpy.random.Generator)."""
+    values = np.array([4.0, 1.0, 3.0, 2.0])
+    got = EmpiricalSampler(values).draw(1000, rng=7)
+    expected = np.sort(values).take(np.random.default_rng(7).integers(0, 4, 1000))
+    np.testing.assert_array_equal(got, expected)
+    normal = ParametricSampler("normal", {"mu": 1.0, "sigma": 3.0}).draw(1000, rng=7)
+    np.testing.assert_array_equal(normal, np.random.default_rng(7).normal(1.0, 3.0, 1000))
+
+
+# --- the shared step CDF and index draws ---------------------------------------------------------
+
+
+def _first_at_or_above(cum: np.ndarray, u: float) -> int:
+    """Slow reference of the tie rule: the first row whose cumulative mass reaches u."""
+    for i, c in enumerate(cum):
+        if c >= u:
+            return i
+    return cum.size - 1
+
+
+def test_index_rule_takes_the_first_row_whose_mass_reaches_u() -> None:
+    """At exact cumulative levels (ties) and between them, the index is the first cum[i] >= u."""
+    cum = np.array([0.25, 0.5, 0.5, 1.0])  # row 2 has no mass
+    u = np.array([0.0, 0.1, 0.25, 0.3, 0.5, 0.5000001, 0.99, 1.0])
+    expected = [_first_at_or_above(cum, v) for v in u]
+    assert step_index(cum, u).tolist() == expected == [0, 0, 0, 1, 1, 3, 3, 3]
+
+
+def test_weighted_index_draws_follow_the_rule_for_empirical_and_smoothed() -> None:
+    """Weighted empirical and smoothed draws pick rows by the same rule from the same uniforms."""
+
+    class Uniforms:  # a Generator stand-in whose uniforms sit exactly on the cumulative levels
+        def random(self, size: int) -> np.ndarray:
+            return np.array([0.25, 0.5, 0.75, 1.0 - 2.0**-53])[:size]
+
+    cum = np.array([0.25, 0.5, 0.75, 1.0])
+    assert draw_indices(4, 4, Uniforms(), cum).tolist() == [0, 1, 2, 3]  # type: ignore[arg-type]
+    values, w = np.array([1.0, 2.0, 3.0, 4.0]), np.array([1.0, 1.0, 1.0, 1.0])
+    empirical = EmpiricalSampler(values, w).draw(2000, rng=11)
+    idx = step_index(cum, np.random.default_rng(11).random(2000))
+    np.testing.assert_array_equal(empirical, values[idx])
+    smoothed = SmoothedSampler(values, w, bandwidth=0.5, positive="none").draw(2000, rng=11)
+    gen = np.random.default_rng(11)
+    rows = step_index(cum, gen.random(2000))
+    np.testing.assert_allclose(smoothed, values[rows] + 0.5 * gen.standard_normal(2000), rtol=0)
+
+
+def test_step_cdf_and_mass_agree_with_a_direct_count() -> None:
+    """The shared step CDF and atom mass equal direct sums over tied atoms."""
+    atoms = np.array([1.0, 2.0, 2.0, 5.0])
+    mass = np.array([0.125, 0.25, 0.125, 0.5])
+    cum = np.cumsum(mass)
+    q = np.array([0.0, 1.0, 1.5, 2.0, 4.9, 5.0, 9.0])
+    np.testing.assert_array_equal(step_cdf(atoms, cum, q), [mass[atoms <= v].sum() for v in q])
+    np.testing.assert_array_equal(step_mass(atoms, cum, q), [mass[atoms == v].sum() for v in q])
+
+
+# --- declared attributes -------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("sampler", _every_kind(), ids=lambda s: f"{s.kind}-{s.method}")
+def test_fitted_samplers_carry_only_what_their_constructor_sets(sampler: Sampler) -> None:
+    """A fitted sampler has the same attributes as one rebuilt from its payload (nothing stuck
+    on after construction), and its diagnostics are plain JSON."""
+    rebuilt = type(sampler).from_payload(
+        sampler.payload(), {"kind": sampler.kind, **sampler.describe()}
+    )
+    assert set(vars(sampler)) == set(vars(rebuilt))
+    json.dumps(sampler.diagnostics, allow_nan=False)

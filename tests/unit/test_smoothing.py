@@ -1,4 +1,4 @@
-"""Tests of the kernel-smoothed method in samplewright.fitting.smoothed, with outside reference checks.
+"""Tests of the kernel-smoothed method (sampler and fit), with outside reference checks.
 
 Reference sources: scipy.stats.gaussian_kde (mixture CDF and density, its bandwidth factors),
 statsmodels.nonparametric.bandwidths (Silverman's rule), Silverman (1986, eq. 3.31) and Scott
@@ -17,8 +17,11 @@ from scipy import integrate, stats
 
 import samplewright as sw
 from samplewright.core.errors import MethodError
-from samplewright.fitting.registry import EXTENSION_METHODS
-from samplewright.fitting.smoothed import SmoothedSampler, bandwidth, fit_smoothed
+from samplewright.distributions.smoothed import SmoothedSampler
+from samplewright.fitting import smoothed
+from samplewright.fitting.catalog import CATALOG
+from samplewright.fitting.registry import load_object
+from samplewright.fitting.smoothed import bandwidth, fit_smoothed
 from samplewright.store.artifacts import load_sampler, write_sampler
 
 
@@ -46,8 +49,8 @@ def _kde(centres: np.ndarray, h: float, weights: np.ndarray | None = None) -> st
 
 
 def test_smoothed_is_registered_and_reached_through_fit(income: np.ndarray) -> None:
-    """Importing samplewright.fitting.smoothed registers 'smoothed', and sw.fit dispatches to it."""
-    assert EXTENSION_METHODS["smoothed"] is fit_smoothed
+    """The catalog names the fitter in samplewright.fitting.smoothed; sw.fit reaches it."""
+    assert load_object(CATALOG["smoothed"].fitter) is smoothed.fit_sample
     s = sw.fit(income, method="smoothed", positive="none")
     assert isinstance(s, SmoothedSampler) and s.params["positive"] == "none"
 

@@ -1,4 +1,4 @@
-"""Unit tests of the spliced (body + generalized Pareto tail) method in samplewright.fitting.spliced."""
+"""Unit tests of the spliced (body + generalized Pareto tail) method: its sampler and its fit."""
 
 from __future__ import annotations
 
@@ -14,11 +14,13 @@ from samplewright.core.errors import MethodError
 from samplewright.distributions.empirical import EmpiricalSampler
 from samplewright.distributions.parametric import ParametricSampler
 from samplewright.distributions.piecewise import PiecewiseSampler
-from samplewright.fitting.registry import EXTENSION_METHODS
+from samplewright.distributions.spliced import SplicedSampler
+from samplewright.fitting import spliced
+from samplewright.fitting.catalog import CATALOG
+from samplewright.fitting.registry import load_object
 from samplewright.fitting.spliced import (
     MIN_EXCEEDANCES_AUTO,
     STABILITY_PROBABILITIES,
-    SplicedSampler,
     fit_spliced,
     gpd_fit_excesses,
     scan_thresholds,
@@ -40,8 +42,8 @@ def fitted(data: np.ndarray) -> SplicedSampler:
 
 
 def test_spliced_is_registered_and_reached_through_fit(data: np.ndarray) -> None:
-    """Importing samplewright.fitting.spliced registers 'spliced', and sw.fit dispatches to it."""
-    assert EXTENSION_METHODS["spliced"] is fit_spliced
+    """The catalog names samplewright.fitting.spliced's fitter for 'spliced'; sw.fit reaches it."""
+    assert load_object(CATALOG["spliced"].fitter) is spliced.fit_sample
     assert "spliced" in sw.known_methods()
     s = sw.fit(data, method="spliced", threshold_quantile=0.9)
     assert isinstance(s, SplicedSampler) and s.method == "spliced"

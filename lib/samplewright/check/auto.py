@@ -23,17 +23,19 @@ from typing import Any
 
 import numpy as np
 
+from samplewright.check.compare import rank_candidates
+from samplewright.check.dispersion import count_diagnostics
+from samplewright.core.checks import CheckedSample
 from samplewright.core.errors import MethodError
-from samplewright.distributions.families import FAMILIES
+from samplewright.distributions.families import FAMILIES, get_family
 from samplewright.distributions.parametric import ParametricSampler
-from samplewright.fitting.registry import EXTENSION_METHODS
+from samplewright.fitting.catalog import CRITERIA
 
-__all__ = ["default_candidates", "fit_auto"]
+__all__ = ["COUNTS", "POOR_FIT_P", "POSITIVE", "REAL_LINE", "default_candidates", "fit_sample"]
 
 POSITIVE = ("lognormal", "gamma", "weibull", "exponential", "inverse_gaussian")
 REAL_LINE = ("normal", "logistic", "gumbel", "student_t")
 COUNTS = ("poisson", "negative_binomial", "geometric")
-_OPTIONS = frozenset({"candidates", "criterion", "n_resamples", "seed"})
 POOR_FIT_P = 0.01
 
 
@@ -50,27 +52,18 @@ def _finite(v: float) -> float | None:
     return float(v) if np.isfinite(v) else None
 
 
-def fit_auto(
-    x: np.ndarray, w: np.ndarray | None, censored: np.ndarray | None, **options: Any
-) -> ParametricSampler:
-    """Fit every candidate, rank them, return the winner carrying the whole ranking."""
-    from samplewright.check.gof import rank_candidates
-
-    unknown = sorted(set(options) - _OPTIONS)
-    if unknown:
-        raise MethodError(
-            f"unknown option {unknown[0]!r} for auto (allowed: {', '.join(sorted(_OPTIONS))})"
-        )
-    if censored is not None and censored.any():
-        raise MethodError("auto does not rank censored data yet; name a family instead")
+def fit_sample(sample: CheckedSample, method: str = "auto", **options: Any) -> ParametricSampler:
+    """Catalog fitter of ``auto``: fit every candidate, rank them, return the winner carrying
+    the whole ranking in its diagnostics."""
+    x, w = sample.values, sample.weights
     candidates = options.get("candidates") or default_candidates(x)
-    if isinstance(candidates, str) or not all(isinstance(c, str) for c in candidates):
+    if not isinstance(candidates, list | tuple) or not all(isinstance(c, str) for c in candidates):
         raise MethodError("option 'candidates' of auto: expected a list of family names")
     bad = [c for c in candidates if c not in FAMILIES]
     if bad:
         raise MethodError(f"option 'candidates' of auto: unknown family {bad[0]!r}")
     criterion = options.get("criterion", "aic")
-    if criterion not in ("aic", "bic"):
+    if criterion not in CRITERIA:
         raise MethodError(
             f"option 'criterion' of auto: expected 'aic' or 'bic', found {criterion!r}"
         )
@@ -111,14 +104,6 @@ def fit_auto(
             }
         )
     poor = bool(best.pvalues) and min(best.pvalues.values()) <= POOR_FIT_P
-    sampler = ParametricSampler(
-        best.family,
-        dict(best.params),
-        loglik=best.loglik,
-        aic=best.aic,
-        bic=best.bic,
-        method="auto",
-    )
     diagnostics: dict[str, Any] = {
         "auto": {
             "criterion": criterion,
@@ -131,12 +116,14 @@ def fit_auto(
             "ranking": table,
         }
     }
-    if best.family in COUNTS or best.family in ("binomial",):
-        from samplewright.fitting.counts import count_diagnostics
-
+    if get_family(best.family).discrete:
         diagnostics.update(count_diagnostics(x, w))
-    sampler.diagnostics = diagnostics  # type: ignore[attr-defined]
-    return sampler
-
-
-EXTENSION_METHODS["auto"] = fit_auto
+    return ParametricSampler(
+        best.family,
+        dict(best.params),
+        loglik=best.loglik,
+        aic=best.aic,
+        bic=best.bic,
+        method="auto",
+        diagnostics=diagnostics,
+    )

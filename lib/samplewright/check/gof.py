@@ -1,4 +1,4 @@
-"""Goodness of fit of a fitted family, with parametric-bootstrap p-values, and candidate ranking.
+"""Goodness of fit of a fitted family, with parametric-bootstrap p-values.
 
 Statistics (keys of every ``statistics`` / ``pvalues`` dict, in this order):
 
@@ -24,37 +24,44 @@ parameters were estimated, so classical tables do not apply): ``B`` replicates o
 ``round(N)`` are drawn from the fitted family, refitted with the same options, and
 ``p = (1 + #{T* >= T} + n_failed) / (1 + B)``; a replicate whose refit fails counts as exceeding
 (conservative). Replicates of normal, and of lognormal and exponential with a fixed location, are
-refitted in closed form for a whole batch at once; the others one by one. Randomness comes only
-from the ``rng`` argument (a numpy Generator or anything :func:`~samplewright.core.randomness.make_rng`
-accepts); the same seed and ``batch`` give the same p-values.
+refitted in closed form for a whole batch at once; the others one by one (the replicate engine
+is :func:`samplewright.resample.replicates.parametric_replicates`). Randomness comes only from
+the ``rng`` argument (a numpy Generator or anything
+:func:`~samplewright.core.randomness.make_rng` accepts); the same seed and ``batch`` give the
+same p-values.
 """
 
 from __future__ import annotations
 
 import functools
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
-from typing import Any, Literal
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any, Literal, get_args
 
 import numpy as np
 from scipy import special
 
-from samplewright.core.errors import FitError, MethodError
-from samplewright.core.randomness import SeedLike, make_rng
-from samplewright.distributions.families import Family, FitOutcome, fit_family, get_family
+from samplewright.core.checks import check_sample
+from samplewright.core.errors import MethodError
+from samplewright.core.randomness import SeedLike
+from samplewright.distributions.families import Family, get_family
+from samplewright.fitting.catalog import CATALOG
+from samplewright.fitting.mle import FamilyFitResult, fit_family
+from samplewright.resample.replicates import DEFAULT_BATCH, parametric_replicates
 
 __all__ = [
-    "CandidateResult",
     "GoodnessOfFitResult",
     "STATISTICS",
+    "Statistic",
+    "check_count",
     "edf_statistics",
     "goodness_of_fit",
-    "rank_candidates",
 ]
 
-STATISTICS = ("ks", "ad", "cvm")
+# EDF statistics, in the order of every statistics / pvalues dict
+Statistic = Literal["ks", "ad", "cvm"]
+STATISTICS: tuple[Statistic, ...] = get_args(Statistic)
 _EPS = 1e-12
-_DEFAULT_BATCH = 1 << 20  # replicate values held at once
 
 
 @dataclass(frozen=True)
@@ -87,26 +94,6 @@ class GoodnessOfFitResult:
     bic: float
     n_failed: int = 0
     n_params: int = 0
-
-
-@dataclass(frozen=True)
-class CandidateResult:
-    """One candidate family in a ranking; ``error`` holds the reason when its fit failed."""
-
-    family: str
-    params: dict[str, float] = field(default_factory=dict)
-    loglik: float = float("nan")
-    n_params: int = 0
-    aic: float = float("nan")
-    bic: float = float("nan")
-    statistics: dict[str, float] = field(default_factory=dict)
-    pvalues: dict[str, float] = field(default_factory=dict)
-    error: str | None = None
-
-    @property
-    def ok(self) -> bool:
-        """Whether the fit succeeded."""
-        return self.error is None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -185,25 +172,6 @@ def _data_stats(
     return _step_stats(np.asarray(dist.cdf(vals), dtype=np.float64), np.bincount(inv, weights=w))
 
 
-def _check_data(values: Any, weights: Any) -> tuple[np.ndarray, np.ndarray]:
-    x = np.asarray(values, dtype=np.float64)
-    if x.ndim != 1 or x.size == 0:
-        raise MethodError(f"values: expected a non-empty 1-d array, found shape {x.shape}")
-    if not np.all(np.isfinite(x)):
-        raise MethodError(
-            f"values: every value must be finite, found {int(np.sum(~np.isfinite(x)))} not"
-        )
-    if weights is None:
-        return x, np.ones_like(x)
-    w = np.asarray(weights, dtype=np.float64)
-    if w.shape != x.shape:
-        raise MethodError(f"weights: expected {x.size} weights, found shape {w.shape}")
-    if not np.all(np.isfinite(w) & (w >= 0)) or not w.sum() > 0:
-        raise MethodError("weights: expected finite non-negative weights with a positive sum")
-    keep = w > 0
-    return x[keep], w[keep]
-
-
 def edf_statistics(
     values: Any, family: str, params: Mapping[str, float], *, weights: Any = None
 ) -> dict[str, float]:
@@ -216,7 +184,8 @@ def edf_statistics(
     (0.233333, 0.036667)
     """
     fam = get_family(family)
-    x, w = _check_data(values, weights)
+    sample = check_sample(values, weights, what=family)
+    x, w = sample.values, sample.weights_or_ones()
     return dict(zip(STATISTICS, (float(v) for v in _data_stats(fam, params, x, w)), strict=True))
 
 
@@ -242,43 +211,50 @@ def _closed_form_u(name: str, sims: np.ndarray, options: Mapping[str, Any]) -> n
 
 def _bootstrap(
     family: Family,
-    out: FitOutcome,
+    out: FamilyFitResult,
     m: int,
     n_resamples: int,
     batch: int,
-    gen: np.random.Generator,
+    rng: SeedLike,
     options: Mapping[str, Any],
 ) -> tuple[np.ndarray, int]:
-    """Statistics of ``n_resamples`` replicates (rows of NaN where the refit failed)."""
-    res = np.full((n_resamples, 3), np.nan)
-    rows = max(1, batch // m)
-    failed = 0
-    for start in range(0, n_resamples, rows):
-        b = min(rows, n_resamples - start)
-        sims = family.draw(out.params, (b, m), gen)
+    """Statistics of ``n_resamples`` replicates of ``m`` values from the fit ``out`` (rows of NaN
+    where the refit failed) and the number of failed refits."""
+    ones = np.ones(m)
+
+    def simulate(shape: tuple[int, int], gen: np.random.Generator) -> np.ndarray:
+        return family.draw(out.params, shape, gen)
+
+    def closed_form(sims: np.ndarray) -> np.ndarray | None:
         u = None if family.discrete else _closed_form_u(family.name, sims, options)
-        if u is not None:
-            with np.errstate(all="ignore"):
-                res[start : start + b] = _sorted_stats(np.sort(u, axis=1))
-            continue
-        ones = np.ones(m)
-        for j in range(b):
-            row = np.asarray(sims[j], dtype=np.float64)
-            try:
-                fit = fit_family(family.name, row, **options)
-            except (FitError, MethodError):
-                failed += 1
-                continue
-            dist = family.bound(fit.params)
-            if family.discrete:
-                res[start + j] = _discrete_stats(row, ones, dist)
-            else:
-                cdf = np.asarray(dist.cdf(np.sort(row)), dtype=np.float64)
-                res[start + j] = _sorted_stats(cdf[None, :])[0]
-    return res, failed
+        if u is None:
+            return None
+        with np.errstate(all="ignore"):
+            return _sorted_stats(np.sort(u, axis=1))
+
+    def refit(row: np.ndarray) -> np.ndarray:
+        fit = fit_family(family.name, row, **options)
+        dist = family.bound(fit.params)
+        if family.discrete:
+            return _discrete_stats(row, ones, dist)
+        cdf = np.asarray(dist.cdf(np.sort(row)), dtype=np.float64)
+        return _sorted_stats(cdf[None, :])[0]
+
+    reps = parametric_replicates(
+        simulate,
+        refit,
+        size=m,
+        n_resamples=n_resamples,
+        n_statistics=len(STATISTICS),
+        rng=rng,
+        batch=batch,
+        evaluate_batch=closed_form,
+    )
+    return reps.values, reps.n_failed
 
 
-def _check_count(value: Any, name: str, least: int) -> int:
+def check_count(value: Any, name: str, least: int) -> int:
+    """``value`` as an int >= ``least``; MethodError naming ``name`` otherwise."""
     if isinstance(value, bool) or not isinstance(value, int | np.integer) or value < least:
         raise MethodError(f"{name}: expected an int >= {least}, found {value!r}")
     return int(value)
@@ -325,18 +301,17 @@ def goodness_of_fit(
     (True, True)
     """
     fam = get_family(family)
-    x, w = _check_data(values, weights)
-    n_resamples = _check_count(n_resamples, "n_resamples", 1)
-    batch = _DEFAULT_BATCH if batch is None else _check_count(batch, "batch", 1)
-    gen = make_rng(rng)
+    sample = check_sample(values, weights, what=family)
+    x, w = sample.values, sample.weights_or_ones()
+    n_resamples = check_count(n_resamples, "n_resamples", 1)
+    batch = DEFAULT_BATCH if batch is None else check_count(batch, "batch", 1)
     out = fit_family(family, x, w, **fit_options)
     observed = _data_stats(fam, out.params, x, w)
     m = int(round(float(np.sum(w))))
-    if m < fam.min_obs:
-        raise MethodError(
-            f"weights: replicates would have {m} values; {family} needs {fam.min_obs}"
-        )
-    null, failed = _bootstrap(fam, out, m, n_resamples, batch, gen, fit_options)
+    min_obs = CATALOG[family].min_obs
+    if m < min_obs:
+        raise MethodError(f"weights: replicates would have {m} values; {family} needs {min_obs}")
+    null, failed = _bootstrap(fam, out, m, n_resamples, batch, rng, fit_options)
     # T* >= T up to rounding (a replicate equal to the data must count); NaN rows compare False
     exceed = np.sum(null >= observed * (1.0 - 1e-12), axis=0) + failed
     pvalues = (1.0 + exceed) / (1.0 + n_resamples)
@@ -352,90 +327,3 @@ def goodness_of_fit(
         n_failed=failed,
         n_params=out.n_params,
     )
-
-
-# ---------------------------------------------------------------------------------------------
-# ranking
-
-
-def rank_candidates(
-    values: Any,
-    families: Sequence[str],
-    *,
-    criterion: Literal["aic", "bic"] = "aic",
-    weights: Any = None,
-    options: Mapping[str, Mapping[str, Any]] | None = None,
-    n_resamples: int = 0,
-    rng: SeedLike = None,
-) -> tuple[CandidateResult, ...]:
-    """Fit every candidate family and order them best first.
-
-    Selection rule: among the fits that succeeded, the lowest ``criterion`` wins (criteria
-    equal to 8 decimal places tie); a tie goes to fewer estimated parameters, then to the family
-    listed first. Failed fits follow, in the order listed, each with its one-line ``error``. The
-    first element is the selection; the ranking does not use the goodness-of-fit p-values.
-
-    Parameters
-    ----------
-    values, weights
-        Data and optional frequency weights, as in :func:`goodness_of_fit`.
-    families : sequence of str
-        Distinct family names, all continuous or all discrete (a density and a probability
-        mass are not comparable).
-    criterion : {"aic", "bic"}
-    options : mapping, optional
-        Fit options per family name, e.g. ``{"gamma": {"loc": 0.0}}``.
-    n_resamples : int, default 0
-        When positive, bootstrap p-values are computed for every successful fit (each candidate
-        gets its own stream spawned from ``rng`` in the listed order); 0 gives statistics only.
-    rng : None, int, SeedSequence or Generator
-
-    Returns
-    -------
-    tuple of CandidateResult
-
-    Examples
-    --------
-    >>> x = np.random.default_rng(3).gamma(4.0, 2.0, 300)
-    >>> [c.family for c in rank_candidates(x, ["exponential", "gamma"])]
-    ['gamma', 'exponential']
-    """
-    if criterion not in ("aic", "bic"):
-        raise MethodError(f"criterion: expected 'aic' or 'bic', found {criterion!r}")
-    names = list(families)
-    if not names:
-        raise MethodError("families: expected at least one family name, found none")
-    if len(set(names)) != len(names):
-        raise MethodError(f"families: expected distinct names, found {names}")
-    fams = [get_family(n) for n in names]
-    if len({f.discrete for f in fams}) > 1:
-        raise MethodError("families: expected all continuous or all discrete, found a mix")
-    options = dict(options or {})
-    extra = sorted(set(options) - set(names))
-    if extra:
-        raise MethodError(f"options: family {extra[0]!r} is not among the candidates")
-    n_resamples = _check_count(n_resamples, "n_resamples", 0)
-    x, w = _check_data(values, weights)
-    streams = make_rng(rng).spawn(len(names)) if n_resamples else [None] * len(names)
-
-    ok: list[tuple[tuple[float, int, int], CandidateResult]] = []
-    failed: list[CandidateResult] = []
-    for i, (name, stream) in enumerate(zip(names, streams, strict=True)):
-        opts = dict(options.get(name, {}))
-        try:
-            if n_resamples:
-                g = goodness_of_fit(x, name, n_resamples=n_resamples, rng=stream, weights=w, **opts)
-                params, ll, aic, bic = g.params, g.loglik, g.aic, g.bic
-                stats_, pvals, k = g.statistics, g.pvalues, g.n_params
-            else:
-                out = fit_family(name, x, w, **opts)
-                params, ll, aic, bic, k = out.params, out.loglik, out.aic, out.bic, out.n_params
-                stats_ = edf_statistics(x, name, params, weights=w)
-                pvals = {}
-        except (FitError, MethodError) as err:
-            failed.append(CandidateResult(name, error=str(err)))
-            continue
-        cand = CandidateResult(name, dict(params), ll, k, aic, bic, stats_, pvals)
-        ok.append(((round(aic if criterion == "aic" else bic, 8), k, i), cand))
-    ok.sort(key=lambda t: t[0])
-    return tuple(c for _, c in ok) + tuple(failed)

@@ -4,6 +4,10 @@ Samplers never hold randomness; every ``draw`` takes an ``rng``. Pipelines deriv
 purpose from a root seed and a stable name (:func:`stream_rng`), so draws are the same on a laptop
 and on a cluster whatever order the jobs run in. No global numpy random state is used anywhere.
 
+A sampler's ``draw`` also accepts a :class:`UniformSource` instead of an ``rng``: anything with a
+method ``uniforms(shape)`` returning floats in [0, 1) (quasi-random points, uniforms coupled by a
+copula). The sampler then transforms those uniforms by its quantile function.
+
 Reproducibility: the same artifact, the same seed and the same stream name give identical draws
 with the same numpy version. numpy's policy allows the output of ``Generator`` methods to change
 between numpy feature releases (NEP 19); the bit streams of ``SeedSequence`` and ``PCG64`` are
@@ -13,12 +17,26 @@ stable.
 from __future__ import annotations
 
 import hashlib
+from typing import Protocol, runtime_checkable
 
 import numpy as np
 
-__all__ = ["SeedLike", "make_rng", "stable_int", "stream_rng"]
+__all__ = ["SeedLike", "UniformSource", "make_rng", "stable_int", "stream_rng"]
 
 SeedLike = int | np.random.SeedSequence | np.random.Generator | None
+
+
+@runtime_checkable
+class UniformSource(Protocol):
+    """A source of uniforms on [0, 1) that a sampler transforms by its quantile function.
+
+    ``uniforms(shape)`` returns a float64 array of exactly that shape. Quasi-random sequences and
+    copulas (uniforms that carry a dependence between inputs) are such sources.
+    """
+
+    def uniforms(self, shape: tuple[int, ...]) -> np.ndarray:
+        """``shape`` uniforms in [0, 1)."""
+        ...
 
 
 def make_rng(rng: SeedLike = None) -> np.random.Generator:

@@ -4,38 +4,83 @@ Every sampler has ``cdf``, ``quantile`` (the generalised inverse CDF
 ``Q(u) = inf{x : F(x) >= u}``), ``pdf`` and/or ``pmf``, ``mean``, ``var``, ``support`` and
 ``draw(size, rng=...)``. A sampler holds no randomness: ``rng`` is passed to each draw.
 
-* :class:`EmpiricalSampler` is the data's own distribution: each observation carries mass 1/n (or
-  its normalised weight); its CDF is exactly the ECDF. It never draws a value that was not seen.
-* :class:`PiecewiseSampler` is a CDF given by knots (x, p): sloped segments are uniform mixtures,
-  flat segments carry no mass, a vertical step (two knots with the same x) is an atom. Used for
-  user-drawn CDFs (method ``knots``) and for the ``interpolated`` method.
-* :class:`ParametricSampler` is a fitted family (see :mod:`samplewright.distributions.families`).
+``draw`` is defined here once and no kind overrides it (template method): with a
+:class:`~samplewright.core.randomness.UniformSource` it returns ``quantile`` of the source's
+uniforms; with anything seed-like it turns it into a numpy Generator and calls the kind's
+``_draw_native(size, gen)``. The default native path is the inverse transform of
+``gen.random(size)``; a kind overrides it only where its own generator is faster (an index draw
+for empirical samplers, numpy's generators for parametric families).
 
-Each sampler can give its payload (the table stored in the artifact) and be rebuilt from it.
+Every sampler also declares what a fit recorded about it (``diagnostics``) and, once loaded from
+an artifact, the artifact's metadata (``metadata``).
+
+The kinds live in the modules of this package, one per payload layout: ``empirical``,
+``piecewise``, ``parametric``, ``spliced``, ``smoothed``, ``kaplan_meier``, ``empirical_pmf``.
+Each can give its payload (the table stored in the artifact) and be rebuilt from it.
 """
 
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from typing import Any, ClassVar
+from collections.abc import Mapping
+from typing import Any, ClassVar, final
 
 import numpy as np
 
-from samplewright.core.randomness import SeedLike, make_rng
+from samplewright.core.randomness import SeedLike, UniformSource, make_rng
 
-__all__ = ["SAMPLER_KINDS", "Sampler", "Size"]
+__all__ = ["SAMPLER_KINDS", "Sampler", "Size", "check_probabilities", "json_float"]
 
 Size = int | tuple[int, ...]
-SAMPLER_KINDS: dict[str, type[Sampler]] = {}  # payload layout -> class, filled by subclasses
+# payload layout -> class, filled as the kind modules are imported (the catalog in
+# samplewright.fitting.catalog names the module of each kind, so a loader imports only that one)
+SAMPLER_KINDS: dict[str, type[Sampler]] = {}
 _BLOCK = 1 << 17  # draws transformed per block (about 1 MB of float64)
 
 
 class Sampler(ABC):
-    """Common interface of all samplers."""
+    """Common interface of all samplers.
+
+    Attributes
+    ----------
+    method : str
+        The method that made it (``"gamma"``, ``"empirical"``, ``"auto"``, ...).
+    params : dict
+        Plain-JSON parameters, stored in the artifact.
+    kind : str
+        Payload layout (class attribute).
+    metadata : dict
+        The artifact's metadata when the sampler was loaded from one, else empty.
+    """
 
     method: str
     params: dict[str, Any]
-    kind: ClassVar[str]  # payload layout: "empirical", "piecewise", "parametric"
+    metadata: dict[str, Any]
+    kind: ClassVar[str]
+    _diagnostics: dict[str, Any]
+
+    def __init__(
+        self,
+        *,
+        method: str,
+        params: dict[str, Any],
+        diagnostics: Mapping[str, Any] | None = None,
+    ) -> None:
+        self.method = method
+        self.params = params
+        self._diagnostics = dict(diagnostics or {})
+        self.metadata = {}
+
+    @property
+    def diagnostics(self) -> dict[str, Any]:
+        """Plain-JSON sections the fit recorded (threshold scans, rankings, dispersion, ...).
+
+        A sampler loaded from an artifact that it did not rebuild them for returns the
+        artifact's recorded diagnostics.
+        """
+        if not self._diagnostics and self.metadata.get("diagnostics"):
+            return dict(self.metadata["diagnostics"])
+        return self._diagnostics
 
     @abstractmethod
     def cdf(self, x: Any) -> np.ndarray: ...
@@ -73,13 +118,35 @@ class Sampler(ABC):
     def sd(self) -> float:
         return float(np.sqrt(self.var))
 
-    def draw(self, size: Size, rng: SeedLike = None) -> np.ndarray:
-        """``size`` draws by inverse transform of uniforms from ``rng``.
+    @final
+    def draw(self, size: Size, rng: SeedLike | UniformSource = None) -> np.ndarray:
+        """``size`` draws: from ``rng`` (None, an int, a SeedSequence or a Generator) by the
+        kind's native path, or ``quantile`` of the uniforms of a :class:`UniformSource`.
 
-        The uniforms are drawn in one call (so the stream does not depend on the block size) and
-        transformed in blocks that stay in cache, which keeps large draws fast.
+        >>> from samplewright.distributions.piecewise import from_knots
+        >>> class Mid:
+        ...     def uniforms(self, shape):
+        ...         return np.full(shape, 0.5)
+        >>> from_knots([0.0, 4.0], [0.0, 1.0]).draw(2, rng=Mid()).tolist()
+        [2.0, 2.0]
         """
-        u = make_rng(rng).random(size)
+        if isinstance(rng, UniformSource):
+            shape = (size,) if isinstance(size, int | np.integer) else tuple(size)
+            u = np.asarray(rng.uniforms(shape), dtype=np.float64)
+            if u.shape != shape:
+                raise ValueError(f"rng: the uniform source gave shape {u.shape}, expected {shape}")
+            return self._inverse_transform(u)
+        return self._draw_native(size, make_rng(rng))
+
+    def _draw_native(self, size: Size, gen: np.random.Generator) -> np.ndarray:
+        """Draws from a Generator; the default is the inverse transform of ``gen.random``.
+
+        The uniforms are drawn in one call (so the stream does not depend on the block size).
+        """
+        return self._inverse_transform(gen.random(size))
+
+    def _inverse_transform(self, u: np.ndarray) -> np.ndarray:
+        """``quantile(u)`` in blocks that stay in cache, which keeps large draws fast."""
         flat = u.reshape(-1)
         if flat.size <= _BLOCK:
             return np.asarray(self.quantile(u), dtype=np.float64)
@@ -94,27 +161,29 @@ class Sampler(ABC):
         return {
             "method": self.method,
             "params": self.params,
-            "support": [_json_float(lo), _json_float(hi)],
-            "mean": _json_float(self.mean),
-            "sd": _json_float(self.sd),
+            "support": [json_float(lo), json_float(hi)],
+            "mean": json_float(self.mean),
+            "sd": json_float(self.sd),
         }
 
     def __repr__(self) -> str:
         return f"<{type(self).__name__} method={self.method!r} params={self.params!r}>"
 
 
-def _json_float(v: float) -> float | str:
+def json_float(v: float) -> float | str:
+    """``v`` as a float, or ``"inf"``, ``"-inf"``, ``"nan"`` (JSON has no such numbers)."""
     v = float(v)
     if np.isfinite(v):
         return v
     return "inf" if v > 0 else ("-inf" if v < 0 else "nan")
 
 
-def _check_u(u: Any) -> np.ndarray:
-    u = np.asarray(u, dtype=np.float64)
-    if np.any((u < 0) | (u > 1) | np.isnan(u)):
+def check_probabilities(u: Any) -> np.ndarray:
+    """``u`` as a float64 array, refused unless every element lies in [0, 1].
+
+    Two reductions instead of element masks: NaN fails both comparisons.
+    """
+    p = np.asarray(u, dtype=np.float64)
+    if p.size and not (p.min() >= 0.0 and p.max() <= 1.0):
         raise ValueError("u: probabilities must lie in [0, 1]")
-    return u
-
-
-# ---------------------------------------------------------------------------------------------
+    return p

@@ -2,19 +2,23 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
 
-from samplewright.core.errors import MethodError
-from samplewright.core.randomness import SeedLike, make_rng
-from samplewright.distributions.base import Sampler, Size, _check_u
+from samplewright.core.checks import check_sample
+from samplewright.distributions.base import Sampler, Size, check_probabilities
+from samplewright.distributions.steps import draw_indices, step_cdf, step_index, step_mass
 
 __all__ = ["EmpiricalSampler"]
 
 
 class EmpiricalSampler(Sampler):
     """The (optionally weighted) empirical distribution of observed values.
+
+    Weights are frequency weights (:func:`~samplewright.core.checks.check_sample`: rows of
+    weight 0 are dropped). Draws pick rows: uniformly, or by the weighted step CDF.
 
     >>> s = EmpiricalSampler([3.0, 1.0, 2.0, 2.0])
     >>> s.cdf([1.0, 1.5, 2.0, 3.0]).tolist()
@@ -25,29 +29,33 @@ class EmpiricalSampler(Sampler):
 
     kind = "empirical"
 
-    def __init__(self, values: Any, weights: Any = None, *, method: str = "empirical") -> None:
-        x = np.asarray(values, dtype=np.float64).ravel()
-        if x.size == 0:
-            raise MethodError("empirical: at least 1 value is needed, found 0")
-        if not np.all(np.isfinite(x)):
-            raise MethodError("empirical: every value must be finite")
+    def __init__(
+        self,
+        values: Any,
+        weights: Any = None,
+        *,
+        method: str = "empirical",
+        diagnostics: Mapping[str, Any] | None = None,
+    ) -> None:
+        sample = check_sample(values, weights, what="empirical")
+        x = sample.values
         order = np.argsort(x, kind="stable")
         self.values = x[order]
-        if weights is None:
-            self.weights: np.ndarray | None = None
+        self.weights: np.ndarray | None = None
+        if sample.weights is None:
             self._cum = np.arange(1, x.size + 1, dtype=np.float64) / x.size
-        else:
-            w = np.asarray(weights, dtype=np.float64).ravel()
-            if w.shape != x.shape:
-                raise MethodError(f"weights: expected {x.size} weights, found {w.size}")
-            if not np.all(np.isfinite(w) & (w > 0)):
-                raise MethodError("weights: every weight must be finite and > 0")
-            w = w[order] / w.sum()
-            self.weights = w
-            self._cum = np.cumsum(w)
-            self._cum[-1] = 1.0
-        self.method = method
-        self.params = {"n": int(x.size), "weighted": weights is not None}
+        else:  # normalised by the sum in the given order (the sum's rounding depends on it)
+            self._set_weights(sample.weights[order] / sample.weights.sum())
+        super().__init__(
+            method=method,
+            params={"n": int(x.size), "weighted": sample.weights is not None},
+            diagnostics=diagnostics,
+        )
+
+    def _set_weights(self, normalised: np.ndarray) -> None:
+        self.weights = normalised
+        self._cum = np.cumsum(normalised)
+        self._cum[-1] = 1.0
 
     def _probs(self) -> np.ndarray:
         return (
@@ -57,26 +65,17 @@ class EmpiricalSampler(Sampler):
         )
 
     def cdf(self, x: Any) -> np.ndarray:
-        idx = np.searchsorted(self.values, np.asarray(x, dtype=np.float64), side="right")
-        return np.where(idx > 0, self._cum[np.maximum(idx - 1, 0)], 0.0)
+        return step_cdf(self.values, self._cum, x)
 
     def pmf(self, x: Any) -> np.ndarray:
-        x = np.asarray(x, dtype=np.float64)
-        lo = np.searchsorted(self.values, x, side="left")
-        hi = np.searchsorted(self.values, x, side="right")
-        cum0 = np.concatenate([[0.0], self._cum])
-        return cum0[hi] - cum0[lo]
+        return step_mass(self.values, self._cum, x)
 
     def quantile(self, u: Any) -> np.ndarray:
-        u = _check_u(u)
-        idx = np.searchsorted(self._cum, u, side="left")
-        return self.values[np.minimum(idx, self.values.size - 1)]
+        return self.values[step_index(self._cum, check_probabilities(u))]
 
-    def draw(self, size: Size, rng: SeedLike = None) -> np.ndarray:
-        gen = make_rng(rng)
-        if self.weights is None:
-            return self.values.take(gen.integers(0, self.values.size, size))
-        return self.quantile(gen.random(size))
+    def _draw_native(self, size: Size, gen: np.random.Generator) -> np.ndarray:
+        cum = None if self.weights is None else self._cum
+        return self.values.take(draw_indices(self.values.size, size, gen, cum))
 
     @property
     def mean(self) -> float:
@@ -97,10 +96,7 @@ class EmpiricalSampler(Sampler):
             # The stored weights are already normalised; dividing by their sum again can move
             # them by an ulp, which would change the CDF and the content hash on a rewrite.
             order = np.argsort(np.asarray(payload["value"], dtype=np.float64), kind="stable")
-            w = np.asarray(payload["weight"], dtype=np.float64).ravel()[order]
-            sampler.weights = w
-            sampler._cum = np.cumsum(w)
-            sampler._cum[-1] = 1.0
+            sampler._set_weights(np.asarray(payload["weight"], dtype=np.float64).ravel()[order])
         return sampler
 
     def payload(self) -> dict[str, np.ndarray]:

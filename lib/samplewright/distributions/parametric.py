@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
 
 from samplewright.core.errors import MethodError
-from samplewright.core.randomness import SeedLike, make_rng
-from samplewright.distributions.base import Sampler, Size, _check_u, _json_float
+from samplewright.distributions.base import Sampler, Size, check_probabilities, json_float
 from samplewright.distributions.families import get_family
 
 __all__ = ["ParametricSampler"]
@@ -16,6 +16,9 @@ __all__ = ["ParametricSampler"]
 
 class ParametricSampler(Sampler):
     """A fitted parametric family.
+
+    ``params`` must name exactly the family's parameters. ``loglik``, ``aic`` and ``bic`` are
+    the fit's, when it came from one. Draws use the family's native numpy generator.
 
     >>> s = ParametricSampler("exponential", {"scale": 2.0, "loc": 0.0})
     >>> float(s.cdf(2.0)), float(s.mean)
@@ -27,30 +30,36 @@ class ParametricSampler(Sampler):
     def __init__(
         self,
         family: str,
-        params: dict[str, float],
+        params: Mapping[str, float],
         *,
         loglik: float | None = None,
         aic: float | None = None,
         bic: float | None = None,
         method: str | None = None,
+        diagnostics: Mapping[str, Any] | None = None,
     ) -> None:
         self.family = get_family(family)
         missing = set(self.family.param_names) - set(params)
         if missing:
             raise MethodError(f"{family}: parameters missing: {', '.join(sorted(missing))}")
-        self.params = {k: float(params[k]) for k in self.family.param_names}
-        self.extra_params = {k: v for k, v in params.items() if k not in self.params}
-        self.method = method or family
+        extra = set(params) - set(self.family.param_names)
+        if extra:
+            raise MethodError(f"{family}: unknown parameters: {', '.join(sorted(extra))}")
+        super().__init__(
+            method=method or family,
+            params={k: float(params[k]) for k in self.family.param_names},
+            diagnostics=diagnostics,
+        )
         self.loglik = loglik
         self.aic = aic
         self.bic = bic
-        self._dist = self.family.frozen({**self.params, **self.extra_params})
+        self._dist = self.family.frozen(self.params)
 
     def cdf(self, x: Any) -> np.ndarray:
         return np.asarray(self._dist.cdf(x))
 
     def quantile(self, u: Any) -> np.ndarray:
-        return np.asarray(self._dist.ppf(_check_u(u)))
+        return np.asarray(self._dist.ppf(check_probabilities(u)))
 
     def pdf(self, x: Any) -> np.ndarray:
         if self.family.discrete:
@@ -62,8 +71,8 @@ class ParametricSampler(Sampler):
             raise AttributeError(f"{self.family.name} is continuous: use pdf")
         return np.asarray(self._dist.pmf(x))
 
-    def draw(self, size: Size, rng: SeedLike = None) -> np.ndarray:
-        return self.family.draw({**self.params, **self.extra_params}, size, make_rng(rng))
+    def _draw_native(self, size: Size, gen: np.random.Generator) -> np.ndarray:
+        return self.family.draw(self.params, size, gen)
 
     @property
     def mean(self) -> float:
@@ -95,9 +104,8 @@ class ParametricSampler(Sampler):
     def describe(self) -> dict[str, Any]:
         out = super().describe()
         out["family"] = self.family.name
-        out["params"] = {**self.params, **self.extra_params}
         for k in ("loglik", "aic", "bic"):
             v = getattr(self, k)
             if v is not None:
-                out[k] = _json_float(v)
+                out[k] = json_float(v)
         return out

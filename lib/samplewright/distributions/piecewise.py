@@ -7,11 +7,9 @@ from typing import Any
 import numpy as np
 
 from samplewright.core.errors import KnotsError
-from samplewright.distributions.base import Sampler, _check_u
+from samplewright.distributions.base import Sampler, check_probabilities
 
 __all__ = ["PiecewiseSampler", "from_knots"]
-
-# ---------------------------------------------------------------------------------------------
 
 
 class PiecewiseSampler(Sampler):
@@ -35,12 +33,12 @@ class PiecewiseSampler(Sampler):
         m = self.x.size - 1
         # p equally spaced (the interpolated method): the segment index is arithmetic
         self._equal = bool(np.array_equal(self.p, np.arange(m + 1, dtype=np.float64) / m))
-        self.method = method
         dp = np.diff(self.p)
-        self.params = {
+        params = {
             "n_knots": int(self.x.size),
             "n_atoms": int(np.sum((np.diff(self.x) == 0) & (dp > 0))),
         }
+        super().__init__(method=method, params=params)
 
     def cdf(self, q: Any) -> np.ndarray:
         q = np.asarray(q, dtype=np.float64)
@@ -55,7 +53,7 @@ class PiecewiseSampler(Sampler):
         return np.where(inside, mid, np.where(i < 0, 0.0, 1.0))
 
     def quantile(self, u: Any) -> np.ndarray:
-        u = _check_u(u)
+        u = check_probabilities(u)
         x, p = self.x, self.p
         if self._equal:
             m = x.size - 1
@@ -171,6 +169,3 @@ def from_knots(x: Any, p: Any) -> PiecewiseSampler:
     5.0
     """
     return PiecewiseSampler(x, p, method="knots")
-
-
-# ---------------------------------------------------------------------------------------------

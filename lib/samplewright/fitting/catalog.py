@@ -1,65 +1,300 @@
-"""The names of every method and the options each family accepts, without importing them.
+"""The method catalog: every method ``fit`` knows, as plain data (the one registry).
 
-Planning a workflow validates method names and options on every Snakemake parse (and each
-cluster job parses again), so this module is plain data: importing it costs nothing, while the
-implementations pull in scipy. A test checks it against the implementations.
+For each method the catalog says where its fitter lives (loaded on first use), which options it
+takes (with a one-line help and the JSON types and words each accepts), how many values it needs,
+whether it handles right-censored values and weights, which sampler kind (payload layout) it
+returns, and which diagnostics ``fit`` adds. :data:`KINDS` names the class that rebuilds each kind
+from an artifact. Everything else reads these tables: ``fit`` dispatches through them, the
+fitters and the family fits accept exactly the options listed, planning validates a workflow's
+methods and options against them, and the command-line help and config schema are made from
+them. Nothing here imports numpy or scipy, so planning (every Snakemake parse, again in each
+cluster job) stays cheap.
+
+A fitter named here is called as ``fitter(sample, method, **options)`` with a
+:class:`~samplewright.core.checks.CheckedSample` and returns a
+:class:`~samplewright.distributions.base.Sampler`; a diagnostics hook as
+``hook(values, weights)``, returning sections merged into the sampler's ``diagnostics``.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+from typing import Literal, get_args
+
+from samplewright.distributions.choices import BANDWIDTH_RULES, TAIL_RULES
+
 __all__ = [
-    "EXTENSION_MODULES",
-    "EXTENSION_OPTIONS",
-    "FAMILY_OPTIONS",
+    "CATALOG",
+    "CRITERIA",
+    "Criterion",
+    "KINDS",
     "METHODS",
     "METHOD_OPTIONS",
-    "NONPARAMETRIC",
+    "MethodGroup",
+    "MethodSpec",
+    "OptionSpec",
+    "POSITIVE_MODES",
+    "PositiveMode",
+    "SPLICED_BODIES",
+    "SplicedBody",
+    "THRESHOLD_RULES",
+    "ThresholdRule",
+    "ValueType",
 ]
 
-# family -> fit options it accepts (see samplewright.distributions.families)
-FAMILY_OPTIONS: dict[str, frozenset[str]] = {
-    "normal": frozenset(),
-    "lognormal": frozenset({"loc"}),
-    "exponential": frozenset({"loc"}),
-    "gamma": frozenset({"loc"}),
-    "weibull": frozenset({"loc"}),
-    "gumbel": frozenset(),
-    "logistic": frozenset(),
-    "loglogistic": frozenset({"loc"}),
-    "pareto": frozenset({"loc", "xm"}),
-    "generalized_pareto": frozenset({"loc"}),
-    "gev": frozenset(),
-    "beta": frozenset({"lower", "upper"}),
-    "uniform": frozenset({"lower", "upper"}),
-    "triangular": frozenset({"lower", "upper"}),
-    "inverse_gaussian": frozenset({"loc"}),
-    "student_t": frozenset(),
-    "rayleigh": frozenset({"loc"}),
-    "poisson": frozenset(),
-    "negative_binomial": frozenset(),
-    "geometric": frozenset(),
-    "binomial": frozenset({"n_trials"}),
+# --- words options take (Literal types with the tuple of their values) ----------------------
+
+# Information criterion that ranks candidate families.
+Criterion = Literal["aic", "bic"]
+CRITERIA: tuple[Criterion, ...] = get_args(Criterion)
+# Where smoothed kernels live; "auto" picks log, reflect or none from the data.
+PositiveMode = Literal["auto", "log", "reflect", "none"]
+POSITIVE_MODES: tuple[PositiveMode, ...] = get_args(PositiveMode)
+# The nonparametric bodies of a spliced sampler (a continuous family name is the other choice).
+SplicedBody = Literal["empirical", "interpolated"]
+SPLICED_BODIES: tuple[SplicedBody, ...] = get_args(SplicedBody)
+# How a spliced sampler's threshold was set (recorded in its diagnostics).
+ThresholdRule = Literal["threshold", "threshold_quantile", "stability", "fallback"]
+THRESHOLD_RULES: tuple[ThresholdRule, ...] = get_args(ThresholdRule)
+
+# The JSON types an option's value may have (as JSON Schema names them).
+ValueType = Literal["number", "integer", "string", "array"]
+MethodGroup = Literal["nonparametric", "family", "extension"]
+
+
+@dataclass(frozen=True)
+class OptionSpec:
+    """One option of a method.
+
+    Attributes
+    ----------
+    name : str
+    summary : str
+        One line for help texts.
+    types : tuple of str
+        JSON types its value may have.
+    choices : tuple of str
+        The words it accepts when a string is given (empty: any string the method checks,
+        e.g. a family name).
+    """
+
+    name: str
+    summary: str
+    types: tuple[ValueType, ...]
+    choices: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class MethodSpec:
+    """One method ``fit`` accepts (see the module docstring for how each field is used)."""
+
+    name: str
+    group: MethodGroup
+    summary: str
+    fitter: str
+    kind: str
+    min_obs: int
+    options: tuple[OptionSpec, ...] = ()
+    censoring: bool = False
+    weights: bool = True
+    diagnostics: str | None = None
+
+    @property
+    def option_names(self) -> frozenset[str]:
+        """The names of the options it takes."""
+        return frozenset(o.name for o in self.options)
+
+
+# --- options shared by several methods ------------------------------------------------------
+
+_LOC_FREE = OptionSpec(
+    "loc",
+    "location: a number (fixed, the fit is made on x - loc; default 0) or 'free' (estimated)",
+    ("number", "string"),
+    ("free",),
+)
+_LOC_NUMBER = OptionSpec("loc", "location (threshold): a number, default 0", ("number",))
+_XM = OptionSpec(
+    "xm", "pareto minimum of x - loc: a number (default: smallest x - loc)", ("number",)
+)
+_LOWER_01 = OptionSpec("lower", "lower bound, fixed (default 0)", ("number",))
+_UPPER_01 = OptionSpec("upper", "upper bound, fixed (default 1)", ("number",))
+_LOWER = OptionSpec("lower", "lower bound, fixed (default: estimated)", ("number",))
+_UPPER = OptionSpec("upper", "upper bound, fixed (default: estimated)", ("number",))
+_N_TRIALS = OptionSpec("n_trials", "number of trials (required), an int >= 1", ("integer",))
+
+_DISPERSION = "samplewright.check.dispersion:count_diagnostics"
+_PARAMETRIC = "samplewright.fitting.mle:fit_parametric"
+
+
+def _family(
+    name: str,
+    summary: str,
+    min_obs: int,
+    options: tuple[OptionSpec, ...] = (),
+    *,
+    censoring: bool = True,
+    counts: bool = False,
+) -> MethodSpec:
+    return MethodSpec(
+        name,
+        "family",
+        summary,
+        _PARAMETRIC,
+        "parametric",
+        min_obs,
+        options,
+        censoring=censoring and not counts,
+        diagnostics=_DISPERSION if counts else None,
+    )
+
+
+_METHODS = (
+    MethodSpec(
+        "empirical",
+        "nonparametric",
+        "the data's own (weighted) distribution; never draws a value not seen",
+        "samplewright.fitting.nonparametric:fit_empirical",
+        "empirical",
+        1,
+    ),
+    MethodSpec(
+        "interpolated",
+        "nonparametric",
+        "piecewise-linear CDF through the sorted data (type-7 sample quantiles)",
+        "samplewright.fitting.nonparametric:fit_interpolated",
+        "piecewise",
+        2,
+        weights=False,
+    ),
+    _family("normal", "normal distribution (maximum likelihood)", 2),
+    _family("lognormal", "lognormal distribution", 2, (_LOC_FREE,)),
+    _family("exponential", "exponential distribution", 1, (_LOC_FREE,)),
+    _family("gamma", "gamma distribution", 2, (_LOC_FREE,)),
+    _family("weibull", "weibull distribution", 2, (_LOC_FREE,)),
+    _family("gumbel", "gumbel distribution (maxima)", 2),
+    _family("logistic", "logistic distribution", 2),
+    _family("loglogistic", "log-logistic distribution", 2, (_LOC_FREE,)),
+    _family("pareto", "pareto distribution", 2, (_LOC_NUMBER, _XM)),
+    _family("generalized_pareto", "generalized pareto distribution", 2, (_LOC_NUMBER,)),
+    _family("gev", "generalized extreme value distribution", 3),
+    _family("beta", "beta distribution on [lower, upper]", 2, (_LOWER_01, _UPPER_01)),
+    _family("uniform", "uniform distribution", 2, (_LOWER, _UPPER), censoring=False),
+    _family("triangular", "triangular distribution", 3, (_LOWER, _UPPER), censoring=False),
+    _family("inverse_gaussian", "inverse gaussian distribution", 2, (_LOC_FREE,)),
+    _family("student_t", "student t distribution (location, scale, degrees of freedom)", 3),
+    _family("rayleigh", "rayleigh distribution", 1, (_LOC_FREE,)),
+    _family("poisson", "poisson counts", 1, counts=True),
+    _family("negative_binomial", "negative binomial counts (over-dispersed)", 2, counts=True),
+    _family("geometric", "geometric counts (failures before the first success)", 1, counts=True),
+    _family("binomial", "binomial counts", 1, (_N_TRIALS,), counts=True),
+    MethodSpec(
+        "spliced",
+        "extension",
+        "a body up to a threshold joined to a generalized pareto tail above it",
+        "samplewright.fitting.spliced:fit_sample",
+        "spliced",
+        1,
+        (
+            OptionSpec(
+                "body",
+                "below the threshold: 'empirical' (default), 'interpolated' or a continuous family",
+                ("string",),
+            ),
+            OptionSpec("threshold", "the threshold in data units", ("number",)),
+            OptionSpec(
+                "threshold_quantile", "the threshold as a probability in (0, 1)", ("number",)
+            ),
+        ),
+    ),
+    MethodSpec(
+        "smoothed",
+        "extension",
+        "gaussian kernels around the data (a smoothed bootstrap)",
+        "samplewright.fitting.smoothed:fit_sample",
+        "smoothed",
+        1,
+        (
+            OptionSpec(
+                "bandwidth",
+                "kernel standard deviation: 'silverman' (default), 'scott' or a positive number",
+                ("number", "string"),
+                BANDWIDTH_RULES,
+            ),
+            OptionSpec(
+                "positive",
+                "kernel scale: 'auto' (default: log, reflect or none by the data), 'log', "
+                "'reflect' or 'none'",
+                ("string",),
+                POSITIVE_MODES,
+            ),
+        ),
+    ),
+    MethodSpec(
+        "kaplan_meier",
+        "extension",
+        "product-limit estimate of right-censored data, atoms at the event times",
+        "samplewright.fitting.kaplan_meier:fit_sample",
+        "kaplan_meier",
+        1,
+        (
+            OptionSpec(
+                "tail",
+                "survival left after the largest value: 'at_last' (default) or 'exponential'",
+                ("string",),
+                TAIL_RULES,
+            ),
+        ),
+        censoring=True,
+    ),
+    MethodSpec(
+        "empirical_pmf",
+        "extension",
+        "the observed counts' own pmf; never draws a count not seen",
+        "samplewright.fitting.counts:fit_sample",
+        "empirical_pmf",
+        1,
+        diagnostics=_DISPERSION,
+    ),
+    MethodSpec(
+        "auto",
+        "extension",
+        "the candidate family with the lowest AIC (or BIC), with goodness-of-fit p-values",
+        "samplewright.check.auto:fit_sample",
+        "parametric",
+        1,
+        (
+            OptionSpec("candidates", "family names to compare (default: by the data)", ("array",)),
+            OptionSpec("criterion", "'aic' (default) or 'bic'", ("string",), CRITERIA),
+            OptionSpec(
+                "n_resamples",
+                "bootstrap replicates per candidate, 0 for none (default 99)",
+                ("integer",),
+            ),
+            OptionSpec(
+                "seed", "seed of the bootstrap stream, an int >= 0 (default 0)", ("integer",)
+            ),
+        ),
+    ),
+)
+
+# method name -> its entry
+CATALOG: dict[str, MethodSpec] = {m.name: m for m in _METHODS}
+# payload layout -> "module:Class" that rebuilds it from an artifact
+KINDS: dict[str, str] = {
+    "empirical": "samplewright.distributions.empirical:EmpiricalSampler",
+    "piecewise": "samplewright.distributions.piecewise:PiecewiseSampler",
+    "parametric": "samplewright.distributions.parametric:ParametricSampler",
+    "spliced": "samplewright.distributions.spliced:SplicedSampler",
+    "smoothed": "samplewright.distributions.smoothed:SmoothedSampler",
+    "kaplan_meier": "samplewright.distributions.kaplan_meier:KaplanMeierSampler",
+    "empirical_pmf": "samplewright.distributions.empirical_pmf:EmpiricalPmfSampler",
+    "joint": "samplewright.distributions.joint:JointSampler",
+    "metalog": "samplewright.distributions.metalog:MetalogSampler",
+    "mixture": "samplewright.distributions.mixture:MixtureSampler",
+    "point_mass": "samplewright.distributions.point_mass:PointMassSampler",
 }
-NONPARAMETRIC = ("empirical", "interpolated")
-# extension method -> module that registers it (imported on first use)
-EXTENSION_MODULES: dict[str, str] = {
-    "auto": "samplewright.check.auto",
-    "spliced": "samplewright.fitting.spliced",
-    "smoothed": "samplewright.fitting.smoothed",
-    "kaplan_meier": "samplewright.fitting.kaplan_meier",
-    "empirical_pmf": "samplewright.fitting.counts",
-}
-EXTENSION_OPTIONS: dict[str, frozenset[str]] = {
-    "auto": frozenset({"candidates", "criterion", "n_resamples", "seed"}),
-    "spliced": frozenset({"body", "threshold", "threshold_quantile"}),
-    "smoothed": frozenset({"bandwidth", "positive"}),
-    "kaplan_meier": frozenset({"tail"}),
-    "empirical_pmf": frozenset(),
-}
-# every method -> the options it accepts
-METHOD_OPTIONS: dict[str, frozenset[str]] = {
-    **FAMILY_OPTIONS,
-    **{name: frozenset() for name in NONPARAMETRIC},
-    **EXTENSION_OPTIONS,
-}
-METHODS: tuple[str, ...] = tuple(sorted(METHOD_OPTIONS))
+# every method name, sorted
+METHODS: tuple[str, ...] = tuple(sorted(CATALOG))
+# every method -> the option names it accepts
+METHOD_OPTIONS: dict[str, frozenset[str]] = {m: CATALOG[m].option_names for m in METHODS}

@@ -29,31 +29,25 @@ nothing about where that mass lies. Option ``tail`` chooses:
 
 When ``S_last = 0`` (the largest value is an uncensored event) both rules give the same sampler.
 
-Reproducibility: a sampler holds no randomness; ``draw`` takes an ``rng`` and uses inverse
-transform of ``rng.random(size)``.
+The sampler is :class:`~samplewright.distributions.kaplan_meier.KaplanMeierSampler`; it holds no
+randomness and draws by inverse transform of its step CDF.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any, Literal, get_args
+from typing import Any
 
 import numpy as np
 
+from samplewright.core.checks import CheckedSample, check_sample
 from samplewright.core.errors import MethodError
-from samplewright.distributions.base import Sampler, _check_u
-from samplewright.fitting.registry import EXTENSION_METHODS
+from samplewright.distributions.choices import TAIL_RULES, TailRule
+from samplewright.distributions.kaplan_meier import KaplanMeierSampler
+from samplewright.fitting.api import fit
 
-__all__ = [
-    "TAIL_RULES",
-    "KaplanMeierSampler",
-    "SurvivalResult",
-    "estimate_survival",
-    "fit_kaplan_meier",
-]
+__all__ = ["SurvivalResult", "estimate_survival", "fit_kaplan_meier", "fit_sample"]
 
-TailRule = Literal["at_last", "exponential"]
-TAIL_RULES: tuple[str, ...] = get_args(TailRule)
 _NAME = "kaplan_meier"
 
 
@@ -80,48 +74,10 @@ class SurvivalResult:
     survival: np.ndarray
 
 
-def _check_inputs(
-    values: Any, censored: Any, weights: Any
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Values, event indicators (bool) and weights, checked; messages name the argument."""
-    x = np.asarray(values, dtype=np.float64)
-    if x.ndim != 1:
-        raise MethodError(f"{_NAME}: values must be 1-d, found {x.ndim} dimensions")
-    if x.size == 0:
-        raise MethodError(f"{_NAME}: at least 1 value is needed, found 0")
-    bad = np.flatnonzero(~np.isfinite(x))
-    if bad.size:
-        raise MethodError(f"{_NAME}: values must be finite; value {bad[0] + 1} is {x[bad[0]]}")
-    if censored is None:
-        c = np.zeros(x.size, dtype=bool)
-    else:
-        raw = np.asarray(censored)
-        if raw.shape != x.shape:
-            raise MethodError(f"censored: expected {x.size} flags, found {raw.size}")
-        if raw.dtype != bool:
-            try:
-                num = raw.astype(np.float64)
-            except (TypeError, ValueError):
-                raise MethodError("censored: flags must be 0/1 or booleans") from None
-            bad = np.flatnonzero((num != 0) & (num != 1))
-            if bad.size:
-                raise MethodError(
-                    f"censored: flags must be 0/1 or booleans; flag {bad[0] + 1} is "
-                    f"{raw[bad[0]].item()!r}"
-                )
-        c = raw.astype(bool)
-    if weights is None:
-        w = np.ones(x.size)
-    else:
-        w = np.asarray(weights, dtype=np.float64)
-        if w.shape != x.shape:
-            raise MethodError(f"weights: expected {x.size} weights, found {w.size}")
-        bad = np.flatnonzero(~(np.isfinite(w) & (w > 0)))
-        if bad.size:
-            raise MethodError(
-                f"weights: every weight must be finite and > 0; weight {bad[0] + 1} is {w[bad[0]]}"
-            )
-    return x, ~c, w
+def _events(sample: CheckedSample) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Values, event indicators (True: observed) and weights of a checked sample."""
+    event = np.ones(sample.n, dtype=bool) if sample.censored is None else ~sample.censored
+    return sample.values, event, sample.weights_or_ones()
 
 
 def estimate_survival(values: Any, censored: Any = None, *, weights: Any = None) -> SurvivalResult:
@@ -134,7 +90,7 @@ def estimate_survival(values: Any, censored: Any = None, *, weights: Any = None)
     censored : array_like of bool or 0/1, optional
         True (1) where the value is right-censored. Default: none censored.
     weights : array_like, optional
-        Positive frequency weights, one per value.
+        Non-negative frequency weights, one per value (rows of weight 0 are dropped).
 
     Returns
     -------
@@ -146,7 +102,8 @@ def estimate_survival(values: Any, censored: Any = None, *, weights: Any = None)
     >>> r.time.tolist(), r.survival.tolist()
     ([2.0, 3.0, 5.0], [0.75, 0.5, 0.5])
     """
-    return _table(*_check_inputs(values, censored, weights))
+    sample = check_sample(values, weights, censored)
+    return _table(*_events(sample))
 
 
 def _table(x: np.ndarray, event: np.ndarray, w: np.ndarray) -> SurvivalResult:
@@ -163,184 +120,14 @@ def _table(x: np.ndarray, event: np.ndarray, w: np.ndarray) -> SurvivalResult:
     return SurvivalResult(time, at_risk, d, c, survival)
 
 
-class KaplanMeierSampler(Sampler):
-    """Point masses at the event times of a Kaplan–Meier estimate, plus a rule for the rest.
-
-    Built by :func:`fit_kaplan_meier`. ``time`` holds the atoms and ``survival`` the value of
-    ``S`` just after each; the CDF is ``1 - S``. See the module docstring for ``tail``.
-
-    >>> s = fit_kaplan_meier([2.0, 3.0, 3.0, 5.0], [False, True, False, True])
-    >>> s.cdf([1.0, 2.0, 3.0, 5.0]).tolist(), s.pmf(5.0).item()
-    ([0.0, 0.25, 0.5, 1.0], 0.5)
-    """
-
-    kind = "kaplan_meier"
-
-    def __init__(self, time: Any, survival: Any, params: dict[str, Any]) -> None:
-        self.time = np.asarray(time, dtype=np.float64).ravel()
-        self.survival = np.asarray(survival, dtype=np.float64).ravel()
-        if self.time.size == 0 or self.time.shape != self.survival.shape:
-            raise MethodError(
-                f"{_NAME}: time and survival must be equally long and non-empty, found "
-                f"{self.time.size} and {self.survival.size}"
-            )
-        if np.any(np.diff(self.time) <= 0) or np.any(np.diff(self.survival) > 0):
-            raise MethodError(f"{_NAME}: time must increase and survival must not increase")
-        tail = params.get("tail")
-        if tail not in TAIL_RULES:
-            raise MethodError(
-                f"option 'tail' of {_NAME}: expected one of {', '.join(TAIL_RULES)}, found {tail!r}"
-            )
-        self.method = _NAME
-        self.params = dict(params)
-        self.tail: str = tail
-        self.last_value = float(params["last_value"])
-        self._tail_mass = float(self.survival[-1])
-        rate = params.get("tail_rate")
-        self.tail_rate = None if rate is None else float(rate)
-        self._has_tail = tail == "exponential" and self._tail_mass > 0
-        if tail == "at_last" and self._tail_mass != 0.0:
-            raise MethodError(f"{_NAME}: with tail 'at_last' the last survival value must be 0")
-        if self._has_tail and not (self.tail_rate is not None and self.tail_rate > 0):
-            raise MethodError(f"{_NAME}: the exponential tail needs a rate > 0, found {rate!r}")
-        self._cdf = 1.0 - self.survival
-        self._mass = np.diff(np.concatenate([[0.0], self._cdf]))
-
-    @property
-    def diagnostics(self) -> dict[str, Any]:
-        """Counts and the tail rule, for the artifact's ``diagnostics`` section."""
-        keys = (
-            "n_events",
-            "n_censored",
-            "events_weight",
-            "censored_weight",
-            "survival_at_last",
-            "last_value",
-            "last_censored",
-            "tail",
-            "tail_rate",
-        )
-        return {"censoring": {k: self.params[k] for k in keys if k in self.params}}
-
-    def cdf(self, x: Any) -> np.ndarray:
-        q = np.asarray(x, dtype=np.float64)
-        idx = np.searchsorted(self.time, q, side="right")
-        out = np.where(idx > 0, self._cdf[np.maximum(idx - 1, 0)], 0.0)
-        if self._has_tail:
-            assert self.tail_rate is not None
-            beyond = q > self.last_value
-            dt = np.where(beyond, q - self.last_value, 0.0)
-            tail = 1.0 - self._tail_mass * np.exp(-self.tail_rate * dt)
-            out = np.where(beyond, tail, out)
-        return out
-
-    def pmf(self, x: Any) -> np.ndarray:
-        """Mass of the atom at ``x`` (0 where there is none)."""
-        q = np.asarray(x, dtype=np.float64)
-        idx = np.clip(np.searchsorted(self.time, q, side="left"), 0, self.time.size - 1)
-        return np.where(self.time[idx] == q, self._mass[idx], 0.0)
-
-    def pdf(self, x: Any) -> np.ndarray:
-        """Density of the continuous part (the exponential tail; atoms excluded, see pmf)."""
-        q = np.asarray(x, dtype=np.float64)
-        if not self._has_tail:
-            return np.zeros(q.shape)
-        assert self.tail_rate is not None
-        beyond = q > self.last_value
-        dt = np.where(beyond, q - self.last_value, 0.0)
-        dens = self._tail_mass * self.tail_rate * np.exp(-self.tail_rate * dt)
-        return np.where(beyond, dens, 0.0)
-
-    def quantile(self, u: Any) -> np.ndarray:
-        uu = _check_u(u)
-        idx = np.searchsorted(self._cdf, uu, side="left")
-        out = self.time[np.minimum(idx, self.time.size - 1)]
-        if self._has_tail:
-            assert self.tail_rate is not None
-            beyond = uu > self._cdf[-1]
-            with np.errstate(divide="ignore"):
-                gap = np.log(self._tail_mass) - np.log1p(-np.where(beyond, uu, 0.0))
-            tail = self.last_value + np.maximum(gap, 0.0) / self.tail_rate
-            out = np.where(beyond, tail, out)
-        return out
-
-    @property
-    def mean(self) -> float:
-        m = float(np.dot(self._mass, self.time))
-        if self._has_tail:
-            assert self.tail_rate is not None
-            m += self._tail_mass * (self.last_value + 1.0 / self.tail_rate)
-        return m
-
-    @property
-    def var(self) -> float:
-        m = self.mean
-        v = float(np.dot(self._mass, (self.time - m) ** 2))
-        if self._has_tail:
-            assert self.tail_rate is not None
-            a, r = self.last_value - m, self.tail_rate
-            v += self._tail_mass * (a * a + 2.0 * a / r + 2.0 / (r * r))
-        return v
-
-    @property
-    def support(self) -> tuple[float, float]:
-        hi = np.inf if self._has_tail else float(self.time[-1])
-        return float(self.time[0]), hi
-
-    def payload(self) -> dict[str, np.ndarray]:
-        return {"time": self.time, "survival": self.survival}
-
-    @classmethod
-    def from_payload(cls, payload: dict[str, np.ndarray], described: dict[str, Any]) -> Sampler:
-        return cls(payload["time"], payload["survival"], dict(described["params"]))
-
-
-def _tail_option(options: dict[str, Any]) -> str:
-    unknown = sorted(set(options) - {"tail"})
-    if unknown:
-        raise MethodError(f"unknown option {unknown[0]!r} for method {_NAME!r}; it takes 'tail'")
+def fit_sample(sample: CheckedSample, method: str = _NAME, **options: Any) -> KaplanMeierSampler:
+    """Catalog fitter of ``kaplan_meier`` (option ``tail``, module docstring)."""
     tail = options.get("tail", "at_last")
     if tail not in TAIL_RULES:
         raise MethodError(
             f"option 'tail' of {_NAME}: expected one of {', '.join(TAIL_RULES)}, found {tail!r}"
         )
-    return str(tail)
-
-
-def fit_kaplan_meier(
-    values: Any,
-    censored: Any = None,
-    *,
-    weights: Any = None,
-    tail: TailRule = "at_last",
-) -> KaplanMeierSampler:
-    """Kaplan–Meier sampler of right-censored values.
-
-    Parameters
-    ----------
-    values : array_like
-        1-d finite observations.
-    censored : array_like of bool or 0/1, optional
-        True (1) where the value is right-censored. Default: none censored (the empirical
-        distribution).
-    weights : array_like, optional
-        Positive frequency weights, one per value.
-    tail : {"at_last", "exponential"}
-        Where the survival left after the largest value goes (module docstring).
-
-    Returns
-    -------
-    KaplanMeierSampler
-        Its ``diagnostics`` hold the counts, ``S`` at the largest value and the tail rule.
-
-    Examples
-    --------
-    >>> s = fit_kaplan_meier([4.0, 6.0, 9.0], [False, False, True], tail="exponential")
-    >>> s.params["survival_at_last"], s.params["tail_rate"], s.support
-    (0.33333333333333337, 0.10526315789473684, (4.0, inf))
-    """
-    rule = _tail_option({"tail": tail})
-    x, event, w = _check_inputs(values, censored, weights)
+    x, event, w = _events(sample)
     if not np.any(event):
         raise MethodError(
             f"censored: every value is censored; {_NAME} needs at least one uncensored value"
@@ -351,7 +138,7 @@ def fit_kaplan_meier(
     keep = table.n_events > 0
     time, surv = table.time[keep], table.survival[keep].copy()
     rate: float | None = None
-    if rule == "exponential":
+    if tail == "exponential":
         if x.min() < 0:
             raise MethodError(
                 f"option 'tail'='exponential' of {_NAME} needs non-negative values (time at "
@@ -370,17 +157,18 @@ def fit_kaplan_meier(
             surv = np.append(surv, 0.0)
         else:
             surv[-1] = 0.0
+    weighted = sample.weights is not None
     params: dict[str, Any] = {
         "n_events": int(np.count_nonzero(event)),
         "n_censored": int(np.count_nonzero(~event)),
     }
-    if weights is not None:
+    if weighted:
         params["events_weight"] = float(np.sum(w * event))
         params["censored_weight"] = float(np.sum(w * ~event))
     params.update(
         {
-            "weighted": weights is not None,
-            "tail": rule,
+            "weighted": weighted,
+            "tail": tail,
             "tail_rate": rate,
             "last_value": last,
             "last_censored": bool(table.n_censored[-1] > 0),
@@ -390,10 +178,38 @@ def fit_kaplan_meier(
     return KaplanMeierSampler(time, surv, params)
 
 
-def _fit_method(x: np.ndarray, weights: Any, censored: Any, **options: Any) -> KaplanMeierSampler:
-    """The ``kaplan_meier`` entry of :data:`~samplewright.fitting.registry.EXTENSION_METHODS`."""
-    rule: Any = _tail_option(options)
-    return fit_kaplan_meier(x, censored, weights=weights, tail=rule)
+def fit_kaplan_meier(
+    values: Any,
+    censored: Any = None,
+    *,
+    weights: Any = None,
+    tail: TailRule = "at_last",
+) -> KaplanMeierSampler:
+    """Kaplan–Meier sampler of right-censored values: ``fit(values, "kaplan_meier", ...)``.
 
+    Parameters
+    ----------
+    values : array_like
+        1-d finite observations.
+    censored : array_like of bool or 0/1, optional
+        True (1) where the value is right-censored. Default: none censored (the empirical
+        distribution).
+    weights : array_like, optional
+        Non-negative frequency weights, one per value (rows of weight 0 are dropped).
+    tail : {"at_last", "exponential"}
+        Where the survival left after the largest value goes (module docstring).
 
-EXTENSION_METHODS[_NAME] = _fit_method
+    Returns
+    -------
+    KaplanMeierSampler
+        Its ``diagnostics`` hold the counts, ``S`` at the largest value and the tail rule.
+
+    Examples
+    --------
+    >>> s = fit_kaplan_meier([4.0, 6.0, 9.0], [False, False, True], tail="exponential")
+    >>> s.params["survival_at_last"], s.params["tail_rate"], s.support
+    (0.33333333333333337, 0.10526315789473684, (4.0, inf))
+    """
+    out = fit(values, _NAME, weights=weights, censored=censored, tail=tail)
+    assert isinstance(out, KaplanMeierSampler)
+    return out

@@ -1,4 +1,4 @@
-"""Optimiser helpers behind :mod:`samplewright.distributions.families` (private).
+"""Optimiser helpers behind the maximum-likelihood fits of :mod:`samplewright.fitting.mle`.
 
 Three tools cover every family that has no closed-form maximum-likelihood estimate:
 

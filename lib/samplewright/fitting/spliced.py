@@ -76,14 +76,20 @@ from typing import Any
 
 import numpy as np
 
+from samplewright.core.checks import CheckedSample
 from samplewright.core.errors import FitError, MethodError
-from samplewright.distributions.base import Sampler, _check_u
+from samplewright.distributions.base import Sampler
 from samplewright.distributions.empirical import EmpiricalSampler
-from samplewright.distributions.families import FAMILIES, fit_family, get_family, loglik
+from samplewright.distributions.families import FAMILIES
 from samplewright.distributions.parametric import ParametricSampler
 from samplewright.distributions.piecewise import PiecewiseSampler
+from samplewright.distributions.spliced import SplicedSampler
 from samplewright.fitting import optimise as _mle
-from samplewright.fitting.registry import EXTENSION_METHODS, check_values
+from samplewright.fitting.api import fit
+from samplewright.fitting.catalog import CATALOG, SPLICED_BODIES, ThresholdRule
+from samplewright.fitting.mle import FAMILY_FITS, fit_family, free_params, loglik
+from samplewright.fitting.mle_fits import number_option
+from samplewright.fitting.nonparametric import interpolated
 
 __all__ = [
     "BODY_FAMILIES",
@@ -91,8 +97,8 @@ __all__ = [
     "MIN_EXCEEDANCES",
     "MIN_EXCEEDANCES_AUTO",
     "STABILITY_PROBABILITIES",
-    "SplicedSampler",
     "ThresholdScanResult",
+    "fit_sample",
     "fit_spliced",
     "gpd_fit_excesses",
     "scan_thresholds",
@@ -104,20 +110,13 @@ FALLBACK_PROBABILITY = 0.90
 MIN_HIGHER = 3  # higher fitted candidates a stable one is compared with, at least
 STABILITY_PROBABILITIES = tuple(round(0.80 + 0.01 * i, 2) for i in range(19))
 MEAN_EXCESS_PROBABILITIES = tuple(round(0.50 + 0.02 * i, 2) for i in range(25))
-_OPTIONS = ("body", "threshold", "threshold_quantile")
-
-
-def _free_params(name: str) -> list[str]:
-    fam = FAMILIES[name]
-    return [k for k in fam.param_names if k not in fam._fixed({})]
-
 
 # Continuous families whose free parameters the truncated likelihood can be maximised over.
 BODY_FAMILIES = tuple(
     sorted(
         n
         for n, f in FAMILIES.items()
-        if not f.discrete and all(k in f._kinds for k in _free_params(n))
+        if not f.discrete and all(k in FAMILY_FITS[n].kinds for k in free_params(n, {}))
     )
 )
 
@@ -211,7 +210,7 @@ class ThresholdScanResult:
     modified_scale_se: np.ndarray
     stable: np.ndarray
     threshold: float
-    rule: str
+    rule: ThresholdRule
 
     def to_dict(self) -> dict[str, list[Any]]:
         """Column-wise plain-JSON table (NaN as null)."""
@@ -271,6 +270,7 @@ def scan_thresholds(
         higher = fitted & (us > us[k])
         if fitted[k] and n_exc[k] >= MIN_EXCEEDANCES_AUTO and higher.sum() >= MIN_HIGHER:
             stable[k] = bool(np.all(np.abs(xi[k] - xi[higher]) <= xi_se[higher]))
+    rule: ThresholdRule
     if stable.any():
         threshold, rule = float(us[int(np.argmax(stable))]), "stability"
     else:
@@ -300,324 +300,32 @@ def _mean_excess(x: np.ndarray, w: np.ndarray | None) -> dict[str, list[Any]]:
 
 
 # ---------------------------------------------------------------------------------------------
-# the sampler
-
-
-class SplicedSampler(Sampler):
-    """A body below ``threshold`` spliced to a generalized Pareto tail above it.
-
-    ``body`` is an :class:`EmpiricalSampler` or :class:`PiecewiseSampler` of the values at or
-    below the threshold, or a :class:`ParametricSampler` that is truncated at the threshold.
-
-    >>> body = EmpiricalSampler([1.0, 2.0, 3.0])
-    >>> s = SplicedSampler(body, threshold=3.0, zeta=0.25, xi=0.0, sigma=2.0)
-    >>> s.cdf([2.0, 3.0]).tolist(), float(s.quantile(0.75)), round(float(s.mean), 6)
-    ([0.5, 0.75], 3.0, 2.75)
-    """
-
-    kind = "spliced"
-
-    def __init__(
-        self,
-        body: Sampler,
-        *,
-        threshold: float,
-        zeta: float,
-        xi: float,
-        sigma: float,
-        n_exceedances: int | None = None,
-        method: str = "spliced",
-    ) -> None:
-        if not (0.0 < zeta < 1.0 and sigma > 0 and xi >= -1.0 and np.isfinite(threshold)):
-            raise MethodError(
-                f"spliced: expected 0 < zeta < 1, sigma > 0, xi >= -1 and a finite threshold, "
-                f"found zeta={zeta!r}, sigma={sigma!r}, xi={xi!r}, threshold={threshold!r}"
-            )
-        self.body = body
-        self.threshold, self.zeta = float(threshold), float(zeta)
-        self.xi, self.sigma = float(xi), float(sigma)
-        self.method = method
-        if isinstance(body, ParametricSampler):
-            self.body_name = body.family.name
-            self._fu = float(body.cdf(self.threshold))
-            if not self._fu > 0:
-                raise MethodError(
-                    f"spliced: the {self.body_name} body has no mass below "
-                    f"the threshold {self.threshold!r}"
-                )
-        else:
-            self.body_name = "empirical" if isinstance(body, EmpiricalSampler) else "interpolated"
-            self._fu = 1.0
-        self.params: dict[str, Any] = {
-            "threshold": self.threshold,
-            "zeta": self.zeta,
-            "xi": self.xi,
-            "sigma": self.sigma,
-            "body": self.body_name,
-        }
-        if n_exceedances is not None:
-            self.params["n_exceedances"] = int(n_exceedances)
-        if isinstance(body, ParametricSampler):
-            self.params.update({f"body_{k}": v for k, v in body.params.items()})
-        self.diagnostics: dict[str, Any] = {}
-        self._moments: tuple[float, float] | None = None
-        self._equal_cache: (
-            tuple[tuple[Any, ...], tuple[np.ndarray, np.ndarray, np.ndarray]] | None
-        ) = None
-
-    # --- body conditional on x <= u, and GPD tail ---
-
-    def _body_cdf(self, x: np.ndarray) -> np.ndarray:
-        c = np.asarray(self.body.cdf(np.minimum(x, self.threshold)), dtype=np.float64)
-        return np.minimum(c / self._fu, 1.0)
-
-    def _body_quantile(self, v: np.ndarray) -> np.ndarray:
-        v = np.clip(v, 0.0, 1.0)
-        if isinstance(self.body, ParametricSampler):
-            return np.minimum(self.body.quantile(v * self._fu), self.threshold)
-        return np.asarray(self.body.quantile(v))
-
-    def _tail_sf(self, y: np.ndarray) -> np.ndarray:
-        y = np.maximum(y, 0.0)
-        if self.xi == 0.0:
-            return np.exp(-y / self.sigma)
-        t = np.maximum(1.0 + self.xi * y / self.sigma, 0.0)
-        with np.errstate(divide="ignore"):
-            return np.where(t > 0, np.exp(-np.log(t) / self.xi), 0.0)
-
-    def _tail_quantile(self, s: np.ndarray) -> np.ndarray:
-        with np.errstate(divide="ignore"):
-            lg = -np.log1p(-s)  # standard exponential quantile
-        if self.xi == 0.0:
-            return self.sigma * lg
-        return self.sigma * np.expm1(self.xi * lg) / self.xi
-
-    # --- interface ---
-
-    def cdf(self, x: Any) -> np.ndarray:
-        x = np.asarray(x, dtype=np.float64)
-        u, z = self.threshold, self.zeta
-        return np.where(x <= u, (1.0 - z) * self._body_cdf(x), 1.0 - z * self._tail_sf(x - u))
-
-    def quantile(self, u: Any) -> np.ndarray:
-        if isinstance(self.body, EmpiricalSampler) and self.body.weights is None:
-            return self._quantile_equal(_check_probs(u))
-        p = _check_u(u)
-        split = 1.0 - self.zeta
-        out = np.empty(p.shape)
-        low = p <= split
-        pl, ph = p[low], p[~low]
-        if isinstance(self.body, EmpiricalSampler):
-            out[low] = self.body.values[self._empirical_index(pl)]
-        else:
-            out[low] = self._body_quantile(pl / split)
-        tail = self.threshold + self._tail_quantile(np.clip((ph - split) / self.zeta, 0.0, 1.0))
-        out[~low] = np.where(ph >= 1.0, self.support[1], tail)
-        return out
-
-    def _equal_tables(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Shifted lookup tables of an unweighted empirical body (built once per body and zeta).
-
-        With ``cum = (1 - zeta) * body._cum`` and ``n`` values: ``lo1[j] = cum[j - 1]`` and
-        ``lo2[j] = cum[j - 2]`` (``-inf`` where the index is negative), ``vals[j] =
-        values[max(j - 1, 0)]``, for ``j = 0 .. n``.
-        """
-        body = self.body
-        cum0, values = body._cum, body.values  # type: ignore[attr-defined]
-        key = (self.zeta, body, cum0, values)
-        cached = self._equal_cache
-        if (
-            cached is not None
-            and cached[0][0] == key[0]
-            and all(a is b for a, b in zip(cached[0][1:], key[1:], strict=True))
-        ):
-            return cached[1]
-        n = values.size
-        lo1 = np.empty(n + 1)
-        lo1[0] = -np.inf
-        np.multiply(1.0 - self.zeta, cum0, out=lo1[1:])
-        lo2 = np.empty(n + 1)
-        lo2[0] = -np.inf
-        lo2[1:] = lo1[:n]
-        vals = np.empty(n + 1)
-        vals[0] = values[0]
-        vals[1:] = values
-        self._equal_cache = (key, (lo1, lo2, vals))
-        return lo1, lo2, vals
-
-    def _quantile_equal(self, p: np.ndarray) -> np.ndarray:
-        """quantile for an unweighted empirical body, without masks or compaction.
-
-        The index ``i`` of the body value is the first with ``cum[i] >= p`` (the generalised
-        inverse; ``cum`` as in :meth:`_empirical_index`, same products). Its arithmetic first
-        guess ``g = ceil(p n / (1 - zeta)) - 1`` is off by at most one (both sides carry a few
-        ulps of relative error, far below ``1 / n``), so one step each way settles it:
-        ``i = g + [cum[g] < p] - [cum[g - 1] >= p]`` (the two cannot both hold). The tables of
-        :meth:`_equal_tables` are shifted by one so that ``j = g + 1`` indexes them directly;
-        ``take(mode="clip")`` stands for the bounds checks (``j`` above ``n`` only happens for
-        probabilities above ``1 - zeta`` or, at ``p = 1 - zeta``, when ``cum[n - 1] = p``: the
-        last value either way). Every probability goes through the body search; the few above
-        ``1 - zeta`` are then overwritten by the tail.
-        """
-        lo1, lo2, vals = self._equal_tables()
-        n = vals.size - 1
-        split = 1.0 - self.zeta
-        flat = p.reshape(-1)
-        t = flat * (n / split)
-        np.ceil(t, out=t)
-        j = t.astype(np.int64)
-        del t
-        up = lo1.take(j, mode="clip") < flat
-        down = lo2.take(j, mode="clip") >= flat
-        j += up
-        j -= down
-        del up, down
-        out = vals.take(j, mode="clip")
-        high = np.flatnonzero(flat > split)
-        if high.size:
-            ph = flat[high]
-            s = np.clip((ph - split) / self.zeta, 0.0, 1.0)
-            tail = self.threshold + self._tail_quantile(s)
-            out[high] = np.where(ph >= 1.0, self.support[1], tail)
-        return out.reshape(p.shape)
-
-    def _empirical_index(self, p: np.ndarray) -> np.ndarray:
-        """First i with (1 - zeta) * cum[i] >= p: the same products as cdf, so an exact inverse."""
-        cum = (1.0 - self.zeta) * self.body._cum  # type: ignore[attr-defined]
-        last = cum.size - 1
-        if self.body.weights is not None:  # type: ignore[attr-defined]
-            return np.minimum(np.searchsorted(cum, p, side="left"), last)
-        # equal masses: an arithmetic first guess (off by at most one), then exact corrections
-        i = np.clip(np.ceil(p * (cum.size / (1.0 - self.zeta))).astype(np.int64) - 1, 0, last)
-        for _ in range(2):
-            i = np.where((cum[i] < p) & (i < last), i + 1, i)
-            i = np.where((i > 0) & (cum[np.maximum(i - 1, 0)] >= p), i - 1, i)
-        return i
-
-    def pdf(self, x: Any) -> np.ndarray:
-        """Density of the continuous part (atoms of an empirical body excluded; see pmf)."""
-        x = np.asarray(x, dtype=np.float64)
-        u, z = self.threshold, self.zeta
-        if isinstance(self.body, EmpiricalSampler):
-            below = np.zeros_like(x)
-        else:
-            below = np.asarray(self.body.pdf(x)) / self._fu  # type: ignore[attr-defined]
-        t = np.maximum(1.0 + self.xi * (x - u) / self.sigma, 0.0)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            tail = np.where(
-                x > u, z / self.sigma * self._tail_sf(x - u) / np.where(t > 0, t, 1), 0.0
-            )
-        return np.where(x <= u, (1.0 - z) * below, tail)
-
-    def pmf(self, x: Any) -> np.ndarray:
-        """Atoms of the body (empirical values, ties of an interpolated body); 0 elsewhere."""
-        x = np.asarray(x, dtype=np.float64)
-        if isinstance(self.body, ParametricSampler):
-            return np.zeros_like(x)
-        atoms = np.asarray(self.body.pmf(x))  # type: ignore[attr-defined]
-        return np.where(x <= self.threshold, (1.0 - self.zeta) * atoms, 0.0)
-
-    def _body_moments(self) -> tuple[float, float]:
-        """E[X] and E[X^2] of the body given X <= u (numerical integrals for a family body)."""
-        if self._moments is None:
-            if isinstance(self.body, ParametricSampler):
-                dist, u = self.body._dist, self.threshold
-                lo = float(dist.support()[0])
-                m1 = float(dist.expect(lambda t: t, lb=lo, ub=u, conditional=True))
-                m2 = float(dist.expect(lambda t: t * t, lb=lo, ub=u, conditional=True))
-            else:
-                m1 = float(self.body.mean)
-                m2 = float(self.body.var) + m1 * m1
-            self._moments = (m1, m2)
-        return self._moments
-
-    @property
-    def mean(self) -> float:
-        if self.xi >= 1.0:
-            return float("inf")
-        b1, _ = self._body_moments()
-        tail = self.threshold + self.sigma / (1.0 - self.xi)
-        return float((1.0 - self.zeta) * b1 + self.zeta * tail)
-
-    @property
-    def var(self) -> float:
-        if self.xi >= 0.5:
-            return float("inf")
-        _, b2 = self._body_moments()
-        u, s, a = self.threshold, self.sigma, self.xi
-        ey, ey2 = s / (1.0 - a), 2.0 * s * s / ((1.0 - a) * (1.0 - 2.0 * a))
-        t2 = u * u + 2.0 * u * ey + ey2
-        m2 = (1.0 - self.zeta) * b2 + self.zeta * t2
-        return float(max(m2 - self.mean**2, 0.0))
-
-    @property
-    def support(self) -> tuple[float, float]:
-        lo = float(self.body.support[0])
-        hi = np.inf if self.xi >= 0 else self.threshold + self.sigma / -self.xi
-        return lo, float(hi)
-
-    def payload(self) -> dict[str, np.ndarray]:
-        return self.body.payload()
-
-    @classmethod
-    def from_payload(cls, payload: dict[str, np.ndarray], described: dict[str, Any]) -> Sampler:
-        p = described["params"]
-        name = p["body"]
-        body: Sampler
-        if name == "empirical":
-            body = EmpiricalSampler.from_payload(payload, {"method": "empirical"})
-        elif name == "interpolated":
-            body = PiecewiseSampler.from_payload(payload, {"method": "interpolated"})
-        else:
-            fam = get_family(name)
-            body = ParametricSampler(name, {k: p[f"body_{k}"] for k in fam.param_names})
-        return cls(
-            body,
-            threshold=p["threshold"],
-            zeta=p["zeta"],
-            xi=p["xi"],
-            sigma=p["sigma"],
-            n_exceedances=p.get("n_exceedances"),
-            method=described["method"],
-        )
-
-
-def _check_probs(u: Any) -> np.ndarray:
-    """``u`` as float64, raising like ``samplers._check_u`` (two reductions instead of masks)."""
-    p = np.asarray(u, dtype=np.float64)
-    if p.size and not (p.min() >= 0.0 and p.max() <= 1.0):  # NaN fails both comparisons
-        raise ValueError("u: probabilities must lie in [0, 1]")
-    return p
-
-
-# ---------------------------------------------------------------------------------------------
 # fitting
 
 
 def _interpolated_body(xb: np.ndarray, u: float) -> PiecewiseSampler:
-    xs = np.sort(xb)
-    nb = xs.size
-    if xs[-1] < u:
-        x = np.append(xs, u)
-        p = np.append(np.arange(nb, dtype=np.float64) / nb, 1.0)
-    else:
-        if nb < 2:
+    if xb.max() == u:
+        if xb.size < 2:
             raise MethodError(
                 "option 'body' of spliced: 'interpolated' needs at least 2 values "
-                f"at or below the threshold {u!r}, found {nb}"
+                f"at or below the threshold {u!r}, found {xb.size}"
             )
-        x, p = xs, np.arange(nb, dtype=np.float64) / (nb - 1)
+        return interpolated(xb)
+    nb = xb.size
+    x = np.append(np.sort(xb), u)
+    p = np.append(np.arange(nb, dtype=np.float64) / nb, 1.0)
     return PiecewiseSampler(x, p, method="interpolated")
 
 
 def _parametric_body(
     name: str, x: np.ndarray, w: np.ndarray, below: np.ndarray, u: float
 ) -> ParametricSampler:
-    fam = FAMILIES[name]
+    fam, how = FAMILIES[name], FAMILY_FITS[name]
     xb, wb = x[below], w[below]
-    if xb.size < fam.min_obs:
+    min_obs = CATALOG[name].min_obs
+    if xb.size < min_obs:
         raise MethodError(
-            f"option 'body' of spliced: {name} needs at least {fam.min_obs} values "
+            f"option 'body' of spliced: {name} needs at least {min_obs} values "
             f"at or below the threshold {u!r}, found {xb.size}"
         )
     try:
@@ -630,21 +338,21 @@ def _parametric_body(
     total = float(np.sum(wb))
 
     def mean_loglik(p: dict[str, float]) -> float:
-        if not fam._valid(p):
+        if not how.valid(p):
             return -np.inf
         fu = float(fam.bound(p).cdf(u))
         if not fu > 0:
             return -np.inf
         return loglik(fam, p, xb, wb) / total - float(np.log(fu))
 
-    free = _free_params(name)
+    free = free_params(name, {})
     label = f"spliced body {name} (truncated at {u!r})"
-    params = _mle.maximise_params(mean_loglik, dict(start), free, fam._kinds, label=label)
+    params = _mle.maximise_params(mean_loglik, dict(start), free, how.kinds, label=label)
     lo, _ = fam.bound(params).support()
     if not np.isfinite(mean_loglik(params)) or xb.min() < lo:
         raise FitError(f"{label}: reached an impossible answer {params}")
     for k in free:  # a positive parameter running off to 0 or infinity: a boundary, not a fit
-        if fam._kinds[k][0] == "log" and not 1e-8 < params[k] / start[k] < 1e8:
+        if how.kinds[k][0] == "log" and not 1e-8 < params[k] / start[k] < 1e8:
             raise FitError(
                 f"{label}: {k} ran to {params[k]:.3g} (from {start[k]:.3g}), the edge of the "
                 "family; it does not describe the body: choose another body"
@@ -653,58 +361,38 @@ def _parametric_body(
 
 
 def _check_options(options: Mapping[str, Any]) -> tuple[str, float | None, float | None]:
-    unknown = sorted(set(options) - set(_OPTIONS))
-    if unknown:
-        raise MethodError(
-            f"unknown option {unknown[0]!r} for spliced (allowed: {', '.join(_OPTIONS)})"
-        )
     body = options.get("body", "empirical")
-    if body not in ("empirical", "interpolated") and body not in BODY_FAMILIES:
+    if body not in SPLICED_BODIES and body not in BODY_FAMILIES:
         raise MethodError(
             f"option 'body' of spliced: expected 'empirical', 'interpolated' or one "
             f"of {', '.join(BODY_FAMILIES)}, found {body!r}"
         )
-    thr, q = options.get("threshold"), options.get("threshold_quantile")
+    thr = number_option(options, "threshold", "spliced", None)
+    q = number_option(options, "threshold_quantile", "spliced", None)
     if thr is not None and q is not None:
         raise MethodError(
             "options 'threshold' and 'threshold_quantile' of spliced: pass at most "
             f"one, found both ({thr!r} and {q!r})"
         )
-    for key, v in (("threshold", thr), ("threshold_quantile", q)):
-        if v is not None and (
-            isinstance(v, bool) or not isinstance(v, int | float | np.number) or not np.isfinite(v)
-        ):
-            raise MethodError(f"option {key!r} of spliced: expected a finite number, found {v!r}")
     if q is not None and not 0.0 < q < 1.0:
         raise MethodError(
             f"option 'threshold_quantile' of spliced: expected a probability in (0, 1), found {q!r}"
         )
-    return str(body), None if thr is None else float(thr), None if q is None else float(q)
+    return str(body), thr, q
 
 
-def fit_spliced(
-    values: Any, weights: Any = None, censored: Any = None, **options: Any
-) -> SplicedSampler:
-    """Fit a body plus generalized Pareto tail (method ``spliced``; options in module docstring).
-
-    Raises
-    ------
-    MethodError
-        Censored data, a bad option, weights with an interpolated body, or fewer than 10
-        exceedances above the threshold.
-    """
+def fit_sample(sample: CheckedSample, method: str = "spliced", **options: Any) -> SplicedSampler:
+    """Catalog fitter of ``spliced`` (options in the module docstring)."""
     body_name, thr, q = _check_options(options)
-    if censored is not None and np.any(censored):
-        raise MethodError("method 'spliced' does not handle censored data")
-    x, w = check_values(values, weights)
-    if w is not None:
-        if body_name == "interpolated":
-            raise MethodError(
-                "option 'body' of spliced: 'interpolated' does not take weights; "
-                "use body='empirical' or a family"
-            )
-    ww = np.ones_like(x) if w is None else w
+    x, w = sample.values, sample.weights
+    if w is not None and body_name == "interpolated":
+        raise MethodError(
+            "option 'body' of spliced: 'interpolated' does not take weights; "
+            "use body='empirical' or a family"
+        )
+    ww = sample.weights_or_ones()
     scan = scan_thresholds(x, w)
+    rule: ThresholdRule
     if thr is not None:
         u, rule, key = thr, "threshold", "threshold"
     elif q is not None:
@@ -730,9 +418,8 @@ def fit_spliced(
         body = _interpolated_body(x[below], u)
     else:
         body = _parametric_body(body_name, x, ww, below, u)
-    sampler = SplicedSampler(body, threshold=u, zeta=zeta, xi=xi, sigma=sigma, n_exceedances=n_exc)
     se = [None, None] if cov is None else [float(np.sqrt(cov[0, 0])), float(np.sqrt(cov[1, 1]))]
-    sampler.diagnostics = {
+    diagnostics = {
         "threshold_choice": {
             "rule": rule,
             "threshold": u,
@@ -747,7 +434,29 @@ def fit_spliced(
         "mean_excess": _mean_excess(x, w),
         "parameter_stability": scan.to_dict(),
     }
-    return sampler
+    return SplicedSampler(
+        body,
+        threshold=u,
+        zeta=zeta,
+        xi=xi,
+        sigma=sigma,
+        n_exceedances=n_exc,
+        diagnostics=diagnostics,
+    )
 
 
-EXTENSION_METHODS["spliced"] = fit_spliced
+def fit_spliced(
+    values: Any, weights: Any = None, censored: Any = None, **options: Any
+) -> SplicedSampler:
+    """Fit a body plus generalized Pareto tail: ``fit(values, "spliced", ...)`` (options in the
+    module docstring).
+
+    Raises
+    ------
+    MethodError
+        Censored data, a bad option, weights with an interpolated body, or fewer than 10
+        exceedances above the threshold.
+    """
+    out = fit(values, "spliced", weights=weights, censored=censored, **options)
+    assert isinstance(out, SplicedSampler)
+    return out
