@@ -1,12 +1,15 @@
 """Maximum-likelihood fits of parametric families to incomplete data.
 
-:func:`fit_incomplete` maximises the likelihood of :mod:`~samplewright.fitting.incomplete_likelihood`
-(exact, censored, interval and truncated rows) over the families of
+:func:`fit_incomplete` maximises the likelihood of
+:mod:`~samplewright.fitting.incomplete_likelihood` (exact, censored, interval and truncated
+rows) over the families of
 :mod:`~samplewright.fitting.incomplete_families` (L-BFGS-B then Nelder–Mead with a bounded budget,
-on log-scaled or standardised parameters) and checks the answer: finite log-likelihood, every
-exact value inside the fitted support, no parameter at the edge of its search box, a mass above
-the smallest truncation point that is not vanishingly small. It refuses data for which the
-maximum does not exist (see :func:`fit_incomplete`).
+on log-scaled or standardised parameters, :mod:`~samplewright.fitting.incomplete_optimise`) and
+checks the answer: finite log-likelihood, every exact value inside the fitted support, no
+parameter at the edge of its search box, and a mass above the smallest truncation point that the
+data pin down (:mod:`~samplewright.fitting.incomplete_drift`). It refuses data for which the
+maximum does not exist (see :func:`fit_incomplete`). :func:`refit_incomplete` is the quick
+refit from nearby parameters that a bootstrap makes on every replicate.
 
 Also exported here: the data model (:class:`IncompleteSample`, :func:`incomplete_sample`,
 :func:`incomplete_from_flags`) and :func:`incomplete_loglik` for any continuous distribution.
@@ -16,27 +19,26 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
-from scipy import optimize
 
 from samplewright.core.errors import FitError, MethodError
 from samplewright.fitting.incomplete_checks import (
     FAMILY_NAMES,
-    XI_RANGE,
     check_information,
     check_support,
-    number,
     settings,
     spec_for,
 )
+from samplewright.fitting.incomplete_drift import check_drift
 from samplewright.fitting.incomplete_families import FamilySpec
-from samplewright.fitting.incomplete_likelihood import (
-    RowLayout,
-    incomplete_loglik,
-    layout_loglik,
-    row_layout,
+from samplewright.fitting.incomplete_likelihood import RowLayout, incomplete_loglik, row_layout
+from samplewright.fitting.incomplete_optimise import (
+    Objective,
+    at_edge,
+    family_loglik,
+    maximise,
+    start_values,
 )
 from samplewright.fitting.incomplete_sample import (
     IncompleteSample,
@@ -52,12 +54,10 @@ __all__ = [
     "incomplete_from_flags",
     "incomplete_loglik",
     "incomplete_sample",
+    "refit_incomplete",
 ]
 
 Params = dict[str, float]
-_LOG_HALF_WIDTH = 23.0  # log-scaled parameters may move by a factor e^23 ~ 1e10 from the start
-_REAL_HALF_WIDTH = 1e6  # standardised real parameters: a million spreads from the start
-_PENALTY = 1e6  # objective value standing in for zero likelihood (mean log-lik is O(1))
 _MIN_ABOVE_TRUNCATION = 1e-10  # a fit below this describes only what truncation hid
 
 
@@ -87,6 +87,10 @@ class IncompleteFitResult:
         above it.
     n_obs : float
         Sum of the weights.
+    mass_above_truncation : float
+        Fitted ``P(X > t)`` at the smallest truncation point ``t`` above the family's lower
+        end (1.0 when no row is truncated there): the share of the fitted distribution the
+        data could show; the rest is extrapolated.
     """
 
     family: str
@@ -103,108 +107,11 @@ class IncompleteFitResult:
     n_interval: int
     n_truncated: int
     n_obs: float
+    mass_above_truncation: float = 1.0
 
 
 # ---------------------------------------------------------------------------------------------
 # fitting
-
-
-def _pseudo_values(lay: RowLayout, floor: float) -> tuple[np.ndarray, np.ndarray]:
-    """One value per row for starting values: exact values, interval midpoints, bounds."""
-    left = lay.left if floor == -np.inf else 0.5 * (floor + lay.left)
-    y = np.concatenate([lay.x, lay.right, 0.5 * (lay.lo + lay.hi), left])
-    w = np.concatenate([lay.w_x, lay.w_right, lay.w_int, lay.w_left])
-    return y, w
-
-
-def _start(
-    spec: FamilySpec, dist_name: str, lay: RowLayout, fixed: Params, start: Mapping[str, Any] | None
-) -> Params:
-    y, w = _pseudo_values(lay, spec.floor(fixed))
-    if spec.positive:
-        y = y - fixed["loc"]
-        top = float(np.max(y))
-        y = np.maximum(y, 1e-3 * top)  # keep pseudo-values inside the support
-    p0 = spec.start(y, w, fixed)
-    for k, v in (start or {}).items():
-        if k not in spec.estimated or k in fixed:
-            free = tuple(n for n in spec.estimated if n not in fixed)
-            raise MethodError(f"start: {dist_name} estimates {free}, found {k!r}")
-        p0[k] = number(v, f"start[{k!r}] of {dist_name}")
-        if spec.kinds[k] == "log" and not p0[k] > 0:
-            raise MethodError(f"start[{k!r}] of {dist_name}: expected a value > 0")
-        if spec.kinds[k] == "xi" and not XI_RANGE[0] <= p0[k] <= XI_RANGE[1]:
-            raise MethodError(f"start['xi'] of {dist_name}: expected a value in {XI_RANGE}")
-    return p0
-
-
-def _family_loglik(spec: FamilySpec, lay: RowLayout, p: Params) -> float:
-    kw = spec.kwargs(p)
-    d = spec.dist
-    return layout_loglik(
-        lay,
-        lambda x: d.logpdf(x, **kw),
-        lambda x: d.logcdf(x, **kw),
-        lambda x: d.logsf(x, **kw),
-    )
-
-
-class _Objective:
-    """Negative mean log-likelihood on transformed parameters (0 at the start)."""
-
-    def __init__(
-        self, spec: FamilySpec, lay: RowLayout, fixed: Params, p0: Params, free: tuple[str, ...]
-    ) -> None:
-        self.spec, self.lay, self.fixed, self.free = spec, lay, fixed, free
-        self.center = np.array([np.log(p0[k]) if spec.kinds[k] == "log" else p0[k] for k in free])
-        # a real parameter (a location) moves in units of the family's starting scale
-        scale = next(p0[k] for k in spec.estimated if spec.kinds[k] == "log")
-        self.step = np.array([scale if spec.kinds[k] == "real" else 1.0 for k in free])
-        self.total = float(
-            sum(a.sum() for a in (lay.w_x, lay.w_right, lay.w_left, lay.w_int)) or 1.0
-        )
-        lo: list[float] = []
-        hi: list[float] = []
-        for k, c in zip(free, self.center, strict=True):
-            kind = spec.kinds[k]
-            if kind == "log":
-                lo.append(-_LOG_HALF_WIDTH)
-                hi.append(_LOG_HALF_WIDTH)
-            elif kind == "real":
-                lo.append(-_REAL_HALF_WIDTH)
-                hi.append(_REAL_HALF_WIDTH)
-            else:
-                lo.append(XI_RANGE[0] - c)
-                hi.append(XI_RANGE[1] - c)
-        self.bounds = optimize.Bounds(np.array(lo), np.array(hi))
-
-    def params(self, theta: np.ndarray) -> Params:
-        p = dict(self.fixed)
-        for k, c, s, v in zip(self.free, self.center, self.step, theta, strict=True):
-            z = c + s * v
-            p[k] = float(np.exp(z)) if self.spec.kinds[k] == "log" else float(z)
-        return p
-
-    def __call__(self, theta: np.ndarray) -> float:
-        ll = _family_loglik(self.spec, self.lay, self.params(theta))
-        return -ll / self.total if np.isfinite(ll) else np.inf
-
-
-def _at_edge(obj: _Objective, theta: np.ndarray, dist_name: str) -> None:
-    """Refuse a maximum found at the edge of the search box (the likelihood runs away)."""
-    lo, hi = obj.bounds.lb, obj.bounds.ub
-    margin = 0.02 * (hi - lo)
-    for j, k in enumerate(obj.free):
-        kind = obj.spec.kinds[k]
-        low = theta[j] - lo[j] < margin[j] and kind != "xi"  # xi = -1 is a valid answer
-        high = hi[j] - theta[j] < margin[j]
-        if low or high:
-            where = ("0" if kind == "log" else "-inf") if low else "+inf"
-            raise MethodError(
-                f"{dist_name}: the likelihood keeps rising as {k} -> {where} (stopped at "
-                f"{obj.params(theta)[k]:.6g}): these data do not pin the family down; fix "
-                "a parameter or use another family"
-            )
 
 
 def fit_incomplete(
@@ -240,9 +147,9 @@ def fit_incomplete(
         likelihood has no maximum: no informative row, every informative row right-censored
         (or, for families that cannot concentrate anywhere, every one left-censored), no exact
         values and a point admitted by every row, all exact values equal and admitted by every
-        censored row, a parameter ending at the edge of its search box, or a fit that puts less
-        than 1e-10 of its mass above the smallest truncation point (a location drifting below
-        it).
+        censored row, a parameter ending at the edge of its search box; or a fit whose mass
+        above the smallest truncation point the data cannot pin down (a location drifting
+        below it; :mod:`~samplewright.fitting.incomplete_drift`).
     FitError
         The optimum has a non-finite log-likelihood or an exact value outside the fitted support.
 
@@ -254,6 +161,40 @@ def fit_incomplete(
     >>> round(r.params["scale"], 4)  # (2 + 4 + 7 + 9) / 3 uncensored
     7.3333
     """
+    return _fit(sample, dist_name, fixed, start, max_iter, quick=False)
+
+
+def refit_incomplete(
+    sample: IncompleteSample,
+    dist_name: str,
+    start: Mapping[str, float],
+    *,
+    fixed: Mapping[str, float] | None = None,
+    max_iter: int = 400,
+) -> IncompleteFitResult:
+    """Quick refit from nearby parameters, as a parametric bootstrap makes on each replicate.
+
+    From ``start`` (the parameters of the original fit; those not estimated are ignored), with
+    the quick search of :func:`~samplewright.fitting.incomplete_optimise.maximise` (Nelder–Mead
+    alone, parameters within about 1e-6 of the full search's) and without the drift check of
+    :func:`fit_incomplete` (a replicate is compared, not used); every other check is made.
+    Arguments and errors as in :func:`fit_incomplete`.
+    """
+    spec = spec_for(dist_name)
+    held = set(fixed or {})
+    begin = {k: v for k, v in start.items() if k in spec.estimated and k not in held}
+    return _fit(sample, dist_name, fixed, begin, max_iter, quick=True)
+
+
+def _fit(
+    sample: IncompleteSample,
+    dist_name: str,
+    fixed: Mapping[str, float] | None,
+    start: Mapping[str, float] | None,
+    max_iter: int,
+    *,
+    quick: bool,
+) -> IncompleteFitResult:
     spec = spec_for(dist_name)
     if isinstance(max_iter, bool) or not isinstance(max_iter, int | np.integer) or max_iter < 10:
         raise MethodError(f"max_iter: expected an integer >= 10, found {max_iter!r}")
@@ -264,15 +205,17 @@ def fit_incomplete(
     free = tuple(k for k in spec.estimated if k not in fix)
     if free:
         check_information(lay, spec, dist_name, floor)
-        p0 = _start(spec, dist_name, lay, fix, start)
-        obj = _Objective(spec, lay, fix, p0, free)
-        theta, n_iter, converged = _maximise(obj, int(max_iter), dist_name)
-        _at_edge(obj, theta, dist_name)
+        p0 = start_values(spec, dist_name, lay, fix, start)
+        obj = Objective(spec, lay, fix, p0, free)
+        theta, n_iter, converged = maximise(obj, int(max_iter), dist_name, quick=quick)
+        at_edge(obj, theta, dist_name)
         params = obj.params(theta)
     else:
         params, n_iter, converged = dict(fix), 0, True
-    ll = _family_loglik(spec, lay, params)
-    _check_answer(spec, dist_name, lay, params, ll)
+    ll = family_loglik(spec, lay, params)
+    above = _check_answer(spec, dist_name, lay, params, ll)
+    if free and not quick:
+        check_drift(spec, dist_name, lay, fix, params, ll, int(max_iter))
     k = len(free)
     lo, hi, t = sample.lower, sample.upper, sample.truncation
     exact = lo == hi
@@ -292,64 +235,27 @@ def fit_incomplete(
         n_interval=int((~exact & (hi < np.inf) & (lo > floor)).sum()),
         n_truncated=int((t > floor).sum()),
         n_obs=n_obs,
+        mass_above_truncation=above,
     )
-
-
-def _maximise(obj: _Objective, max_iter: int, dist_name: str) -> tuple[np.ndarray, int, bool]:
-    """L-BFGS-B from the start, then Nelder–Mead from its answer.
-
-    L-BFGS-B (numerical gradients) gets close in few evaluations; Nelder–Mead, which needs no
-    gradient and tolerates zero likelihood, finishes the job and decides ``converged``. Both
-    share the ``max_iter`` budget.
-    """
-    n = len(obj.free)
-    theta = np.zeros(n)
-    if not np.isfinite(obj(theta)):
-        raise MethodError(
-            f"{dist_name}: the starting values {obj.params(theta)} give the data zero "
-            "likelihood; pass start={...}"
-        )
-    res = optimize.minimize(
-        lambda th: min(obj(th), _PENALTY),  # L-BFGS-B needs finite values
-        theta,
-        method="L-BFGS-B",
-        bounds=obj.bounds,
-        options={"maxiter": max(max_iter // 2, 1), "ftol": 1e-15, "gtol": 1e-9},
-    )
-    used = int(res.nit)
-    if np.isfinite(obj(res.x)) and obj(res.x) <= obj(theta):
-        theta = np.asarray(res.x)
-    simplex = np.vstack([theta, theta + 1e-2 * np.eye(n)])
-    res = optimize.minimize(
-        obj,
-        theta,
-        method="Nelder-Mead",
-        bounds=obj.bounds,
-        options={
-            "maxiter": max(max_iter - used, 1),
-            "xatol": 1e-10,
-            "fatol": 1e-13,
-            "initial_simplex": np.clip(simplex, obj.bounds.lb, obj.bounds.ub),
-        },
-    )
-    return np.asarray(res.x), used + int(res.nit), bool(res.success)
 
 
 def _check_answer(
     spec: FamilySpec, dist_name: str, lay: RowLayout, params: Params, ll: float
-) -> None:
+) -> float:
+    """Refuse an impossible answer; return the mass above the smallest truncation point."""
     if not np.isfinite(ll):
         raise FitError(f"{dist_name}: the fitted parameters {params} give log-likelihood {ll}")
     kw = spec.kwargs(params)
+    above = 1.0
     if lay.trunc.size:
         t = float(lay.trunc.min())
         above = float(np.exp(spec.dist.logsf(t, **kw)))
         if above < _MIN_ABOVE_TRUNCATION:
             raise MethodError(
                 f"{dist_name}: the fit puts only {above:.3g} of its mass above the truncation "
-                f"point {t!r}, so it describes almost nothing the data could show (the "
-                "likelihood drifts that way without a maximum); fix a parameter, or fit the "
-                "excess over the truncation point (fixed loc)"
+                f"point {t!r} (the likelihood drifts that way without a maximum): the data "
+                "cannot place the mass below it; fit a family to the excess over the "
+                "truncation point (a positive family with loc at it) or fix a parameter"
             )
     lo, hi = spec.dist.support(**kw)
     if lay.x.size and (lay.x.min() < lo or lay.x.max() > hi):
@@ -357,3 +263,4 @@ def _check_answer(
             f"{dist_name}: the fitted support [{lo:g}, {hi:g}] does not hold every exact value "
             f"(range [{lay.x.min():g}, {lay.x.max():g}])"
         )
+    return above

@@ -20,6 +20,8 @@ logistic            mu, s                 logistic(loc=mu, scale=s)
 generalized_pareto  xi, sigma             genpareto(c=xi, scale=sigma, loc=loc), xi >= -1
 inverse_gaussian    mu, lambda            invgauss(mu=mu/lambda, scale=lambda, loc=loc)
 rayleigh            sigma                 rayleigh(scale=sigma, loc=loc)
+student_t           mu, sigma, nu         t(df=nu, loc=mu, scale=sigma)
+gev                 mu, sigma, xi         genextreme(c=-xi, loc=mu, scale=sigma), xi >= -1
 ==================  ====================  ========================================================
 
 ``loc`` (positive families) is never estimated: it is 0 unless given in ``fixed``. ``pareto`` is
@@ -27,7 +29,13 @@ the single-parameter (type I) Pareto: ``xm`` is fixed too, by default the smalle
 finite lower end or truncation point above ``loc`` (the maximum-likelihood ``xm`` when no row is
 left-censored; with a truncation point at or above ``xm`` on every row, ``xm`` cancels out of the
 likelihood). ``lomax`` is the two-parameter Pareto of loss modelling, the usual choice for
-losses above a deductible.
+losses above a deductible; it is the generalized Pareto with ``xi = 1 / alpha`` and
+``sigma = scale / alpha`` (``loc`` the same), and the package's families name it that way.
+
+Each family also names its *drift* parameter: the location or scale (for ``pareto`` the tail
+index) that moves the family's mass below a truncation point when pushed one way, the others
+held. The check against fits that live below the truncation point
+(:mod:`~samplewright.fitting.incomplete_drift`) moves along it.
 """
 
 from __future__ import annotations
@@ -74,6 +82,9 @@ class FamilySpec:
     start : callable
         ``(y, w, fixed) -> starting values``, from pseudo-values ``y`` (already minus ``loc``
         for positive families) with weights ``w``.
+    drift : tuple of (str, int)
+        The drift parameter and the direction (``-1`` or ``+1``) in which moving it lowers the
+        mass above any point of the support.
     """
 
     dist: Any
@@ -85,6 +96,7 @@ class FamilySpec:
     closed_floor: bool
     concentrates: bool
     start: Callable[[np.ndarray, np.ndarray, Params], Params]
+    drift: tuple[str, int]
 
     def floor(self, p: Params) -> float:
         """Lower end of the support for these (fixed) settings."""
@@ -174,6 +186,16 @@ def _start_invgauss(y: np.ndarray, w: np.ndarray, f: Params) -> Params:
     return {"mu": m, "lambda": m**3 / (sd * sd)}
 
 
+def _start_student_t(y: np.ndarray, w: np.ndarray, f: Params) -> Params:
+    m, sd = _moments(y, w)
+    return {"mu": m, "sigma": sd, "nu": 10.0}
+
+
+def _start_gev(y: np.ndarray, w: np.ndarray, f: Params) -> Params:
+    g = _start_gumbel(y, w, f)
+    return {"mu": g["mu"], "sigma": g["beta"], "xi": 0.0}
+
+
 def _start_rayleigh(y: np.ndarray, w: np.ndarray, f: Params) -> Params:
     return {"sigma": float(np.sqrt(np.average(y * y, weights=w) / 2.0))}
 
@@ -183,6 +205,7 @@ def _spec(
     kinds: dict[str, Kind],
     kwargs: Callable[[Params], dict[str, float]],
     start: Callable[[np.ndarray, np.ndarray, Params], Params],
+    drift: tuple[str, int],
     *,
     positive: bool = True,
     closed_floor: bool = False,
@@ -201,6 +224,7 @@ def _spec(
         closed_floor=closed_floor,
         concentrates=concentrates,
         start=start,
+        drift=drift,
     )
 
 
@@ -210,6 +234,7 @@ SPECS: dict[str, FamilySpec] = {
         {"mu": "real", "sigma": "log"},
         lambda p: {"loc": p["mu"], "scale": p["sigma"]},
         _start_normal,
+        ("mu", -1),
         positive=False,
     ),
     "lognormal": _spec(
@@ -217,12 +242,14 @@ SPECS: dict[str, FamilySpec] = {
         {"mu": "real", "sigma": "log"},
         lambda p: {"s": p["sigma"], "scale": float(np.exp(p["mu"])), "loc": p["loc"]},
         _start_lognormal,
+        ("mu", -1),
     ),
     "exponential": _spec(
         stats.expon,
         {"scale": "log"},
         lambda p: {"scale": p["scale"], "loc": p["loc"]},
         _start_exponential,
+        ("scale", -1),
         closed_floor=True,
         concentrates=False,
     ),
@@ -231,24 +258,28 @@ SPECS: dict[str, FamilySpec] = {
         {"shape": "log", "scale": "log"},
         lambda p: {"a": p["shape"], "scale": p["scale"], "loc": p["loc"]},
         _start_gamma,
+        ("scale", -1),
     ),
     "weibull": _spec(
         stats.weibull_min,
         {"shape": "log", "scale": "log"},
         lambda p: {"c": p["shape"], "scale": p["scale"], "loc": p["loc"]},
         _start_weibull,
+        ("scale", -1),
     ),
     "loglogistic": _spec(
         stats.fisk,
         {"alpha": "log", "beta": "log"},
         lambda p: {"c": p["beta"], "scale": p["alpha"], "loc": p["loc"]},
         _start_loglogistic,
+        ("alpha", -1),
     ),
     "pareto": _spec(
         stats.pareto,
         {"alpha": "log"},
         lambda p: {"b": p["alpha"], "scale": p["xm"], "loc": p["loc"]},
         _start_pareto,
+        ("alpha", 1),
         closed_floor=True,
         concentrates=False,
         settings=("loc", "xm"),
@@ -258,6 +289,7 @@ SPECS: dict[str, FamilySpec] = {
         {"alpha": "log", "scale": "log"},
         lambda p: {"c": p["alpha"], "scale": p["scale"], "loc": p["loc"]},
         _start_lomax,
+        ("scale", -1),
         closed_floor=True,
         concentrates=False,
     ),
@@ -266,6 +298,7 @@ SPECS: dict[str, FamilySpec] = {
         {"mu": "real", "beta": "log"},
         lambda p: {"loc": p["mu"], "scale": p["beta"]},
         _start_gumbel,
+        ("mu", -1),
         positive=False,
     ),
     "logistic": _spec(
@@ -273,6 +306,7 @@ SPECS: dict[str, FamilySpec] = {
         {"mu": "real", "s": "log"},
         lambda p: {"loc": p["mu"], "scale": p["s"]},
         _start_logistic,
+        ("mu", -1),
         positive=False,
     ),
     "generalized_pareto": _spec(
@@ -280,6 +314,7 @@ SPECS: dict[str, FamilySpec] = {
         {"xi": "xi", "sigma": "log"},
         lambda p: {"c": p["xi"], "scale": p["sigma"], "loc": p["loc"]},
         _start_gpd,
+        ("sigma", -1),
         closed_floor=True,
         concentrates=False,
     ),
@@ -288,12 +323,30 @@ SPECS: dict[str, FamilySpec] = {
         {"mu": "log", "lambda": "log"},
         lambda p: {"mu": p["mu"] / p["lambda"], "scale": p["lambda"], "loc": p["loc"]},
         _start_invgauss,
+        ("mu", -1),
     ),
     "rayleigh": _spec(
         stats.rayleigh,
         {"sigma": "log"},
         lambda p: {"scale": p["sigma"], "loc": p["loc"]},
         _start_rayleigh,
+        ("sigma", -1),
         concentrates=False,
+    ),
+    "student_t": _spec(
+        stats.t,
+        {"mu": "real", "sigma": "log", "nu": "log"},
+        lambda p: {"df": p["nu"], "loc": p["mu"], "scale": p["sigma"]},
+        _start_student_t,
+        ("mu", -1),
+        positive=False,
+    ),
+    "gev": _spec(
+        stats.genextreme,
+        {"mu": "real", "sigma": "log", "xi": "xi"},
+        lambda p: {"c": -p["xi"], "loc": p["mu"], "scale": p["sigma"]},
+        _start_gev,
+        ("mu", -1),
+        positive=False,
     ),
 }
