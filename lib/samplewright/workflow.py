@@ -15,14 +15,7 @@ for. Importing this module loads no scipy or pandas, so every Snakemake parse st
 
 from __future__ import annotations
 
-from samplewright.pipeline.plan import (
-    RESULTS_VERSION,
-    check,
-    draws,
-    keyed,
-    rules_path,
-    sampler,
-    targets,
-)
+from samplewright.core.versions import RESULTS_VERSION
+from samplewright.pipeline.helpers import check, draws, keyed, rules_path, sampler, targets
 
 __all__ = ["RESULTS_VERSION", "check", "draws", "keyed", "rules_path", "sampler", "targets"]

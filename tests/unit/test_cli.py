@@ -201,7 +201,7 @@ BAD_INPUTS = {
         "d.csv",
         "hours\n3.5\n",
         ["-c", "hours", "-m", "gamma"],
-        "column 'hours' in d.csv: 1 usable rows, at least 2 needed",
+        "d.csv: gamma needs at least 2 values, found 1",
     ),
     "negative-weight": (
         "d.csv",
@@ -601,3 +601,263 @@ def test_verify_exits_2_on_a_missing_artifact(tmp_path: Path, run_cli: Cli) -> N
     """A path that is not there is an input error (exit 2), not an integrity failure (exit 3)."""
     code, stdout, _ = run_cli("verify", str(tmp_path / "absent.parquet"))
     assert code == 2 and stdout.startswith("FAIL") and "artifact not found" in stdout
+
+
+# --- outputs that would destroy an input or cannot be written (issue 9 #14, #16) --------------
+
+
+def _state(folder: Path) -> dict[str, tuple[bytes, int]]:
+    """Content and modification time of every file under ``folder``."""
+    return {
+        str(p.relative_to(folder)): (p.read_bytes(), p.stat().st_mtime_ns)
+        for p in sorted(folder.rglob("*"))
+        if p.is_file() or p.is_symlink()
+    }
+
+
+def _refused(run_cli: Cli, folder: Path, args: list[object], message: str) -> str:
+    """Run a command that must be refused: exit 2, one line with ``message``, nothing changed."""
+    before = _state(folder)
+    code, stdout, err = run_cli(*args)
+    assert (code, stdout) == (2, ""), err
+    assert err.startswith("samplewright: error: ") and err.count("\n") == 1, err
+    assert message in err, err
+    assert _state(folder) == before
+    return err
+
+
+@pytest.fixture
+def kit(tmp_path: Path, data_csv: Path, gamma_artifact: Path, run_cli: Cli) -> dict[str, Path]:
+    """Inputs of every command: data, a snapshot, two artifacts and a knots file."""
+    snap = tmp_path / "snap.parquet"
+    assert run_cli("snapshot", data_csv, "-c", "hours", "--out", snap)[0] == 0
+    other = tmp_path / "emp.parquet"
+    assert run_cli("fit", data_csv, "-c", "hours", "-m", "empirical", "--out", other)[0] == 0
+    knots = tmp_path / "k.csv"
+    knots.write_text("x,p\n0,0\n2,0.5\n9,1\n")
+    (tmp_path / "link.json").symlink_to(data_csv)
+    return {"data": data_csv, "snap": snap, "art": gamma_artifact, "emp": other, "knots": knots}
+
+
+OVERWRITES = {
+    "fit-data": ["fit", "{data}", "-c", "hours", "-m", "gamma", "--out", "{data}"],
+    "fit-snapshot": ["fit", "{snap}", "-m", "gamma", "--out", "{snap}"],
+    "knots-file": ["knots", "--file", "{knots}", "--out", "{knots}"],
+    "draw-artifact": ["draw", "{art}", "-n", "5", "--seed", "1", "--out", "{art}"],
+    "check-through-link": ["check", "{data}", "{art}", "-c", "hours", "--out", "{dir}/link.json"],
+    "check-candidate-md": ["check", "{data}", "{art}", "-c", "hours", "--out", "{dir}/gamma.json"],
+    "snapshot-data": ["snapshot", "{snap}", "-c", "value", "--out", "{snap}"],
+    "fingerprint-json": ["fingerprint", "{data}", "-c", "hours", "--json-out", "{data}"],
+    "fingerprint-cache": [
+        "fingerprint",
+        "{dir}/fingerprints.json",
+        "-c",
+        "x",
+        "--cache-dir",
+        "{dir}",
+    ],
+    "select-candidate": ["select", "{art}", "{emp}", "--out", "{emp}"],
+    "select-dotted": ["select", "{art}", "{emp}", "--out", "{dir}/sub/../gamma.parquet"],
+}
+
+
+@pytest.mark.parametrize("case", list(OVERWRITES))
+def test_an_output_naming_an_input_is_refused_before_writing(
+    tmp_path: Path, kit: dict[str, Path], run_cli: Cli, case: str
+) -> None:
+    """Every command refuses an output that is (or resolves to) one of its inputs, and leaves
+    every file as it was."""
+    if case == "check-candidate-md":
+        (tmp_path / "gamma.md").symlink_to(kit["art"])  # the .md beside resolves to an input
+    if case == "fingerprint-cache":
+        (tmp_path / "fingerprints.json").write_text("{}")
+    names = {k: str(v) for k, v in kit.items()} | {"dir": str(tmp_path)}
+    args = [a.format(**names) for a in OVERWRITES[case]]
+    _refused(run_cli, tmp_path, args, "refusing to overwrite an input")
+
+
+@pytest.mark.parametrize(
+    ("make_out", "message"),
+    [
+        (lambda d, data: d, "is a folder"),
+        (lambda d, data: data / "a.parquet", "which is a file, not a folder"),
+        (lambda d, data: data / "x" / "y" / "a.parquet", "which is a file, not a folder"),
+        (lambda d, data: d / ("a" * 300 + ".parquet"), "the file system allows at most"),
+        (lambda d, data: d / "/".join(["b" * 250] * 20) / "a.parquet", "longer than the file"),
+    ],
+    ids=["folder", "under-file", "deep-under-file", "long-name", "long-path"],
+)
+def test_unwritable_outputs_exit_2_naming_the_option(
+    tmp_path: Path, data_csv: Path, run_cli: Cli, make_out: Callable, message: str
+) -> None:
+    """--out that is a folder, lies under a file or is too long: one line naming --out."""
+    out = make_out(tmp_path, data_csv)
+    err = _refused(
+        run_cli, tmp_path, ["fit", data_csv, "-c", "hours", "-m", "gamma", "--out", out], message
+    )
+    assert "--out " in err
+
+
+class _FullDisk:
+    """Stands in for pq.ParquetWriter on a full disk: starts the file, then fails."""
+
+    def __init__(self, where: str, *args: object, **kwargs: object) -> None:
+        Path(where).write_bytes(b"PAR1")
+
+    def __enter__(self) -> _FullDisk:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        return None
+
+    def write_table(self, table: object) -> None:
+        import errno
+
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+
+@pytest.mark.parametrize("command", ["fit", "draw", "snapshot", "select"])
+def test_a_full_disk_is_one_line_and_damages_nothing(
+    tmp_path: Path,
+    data_csv: Path,
+    gamma_artifact: Path,
+    run_cli: Cli,
+    monkeypatch: pytest.MonkeyPatch,
+    command: str,
+) -> None:
+    """A write that fails with ENOSPC exits 2 with one line naming the file; an existing
+    output stays as it was and no temporary file is left."""
+    out = tmp_path / "out" / "x.parquet"
+    args = {
+        "fit": ["fit", data_csv, "-c", "hours", "-m", "gamma", "--out", out],
+        "draw": ["draw", gamma_artifact, "-n", "10", "--seed", "1", "--out", out],
+        "snapshot": ["snapshot", data_csv, "-c", "hours", "--out", out],
+        "select": ["select", gamma_artifact, "--out", out],
+    }[command]
+    assert run_cli(*args)[0] == 0  # a good output is in place first
+    monkeypatch.setattr(pq, "ParquetWriter", _FullDisk)
+    err = _refused(run_cli, tmp_path, args, f"{out}: No space left on device")
+    assert [p.name for p in out.parent.iterdir()] == ["x.parquet"]
+    assert err.count("\n") == 1
+
+
+def test_a_full_disk_while_writing_json_is_one_line(
+    tmp_path: Path, data_csv: Path, run_cli: Cli, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """fingerprint --json-out on a full disk: exit 2, one line naming the JSON file."""
+    import errno
+
+    def full(self: Path, data: bytes) -> int:
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    monkeypatch.setattr(Path, "write_bytes", full)
+    out = tmp_path / "fp.json"
+    _refused(
+        run_cli,
+        tmp_path,
+        ["fingerprint", data_csv, "-c", "hours", "--json-out", out],
+        f"{out}: No space left on device",
+    )
+
+
+def _nested_artifact(path: Path, depth: int) -> None:
+    meta = (
+        '{"format": "samplewright-sampler", "format_version": 1, "sampler": '
+        + "[" * depth
+        + "]" * depth
+        + "}"
+    )
+    pq.write_table(pa.table({"x": [1.0]}).replace_schema_metadata({METADATA_KEY: meta}), path)
+
+
+@pytest.mark.parametrize("depth", [100, 100_000])
+@pytest.mark.parametrize("command", ["show", "verify", "draw", "select"])
+def test_deeply_nested_metadata_is_one_line(
+    tmp_path: Path, run_cli: Cli, depth: int, command: str
+) -> None:
+    """An artifact whose metadata JSON nests absurdly deep is refused in one line (exit 2)."""
+    art = tmp_path / "deep.parquet"
+    _nested_artifact(art, depth)
+    args = {
+        "show": ["show", art],
+        "verify": ["verify", art],
+        "draw": ["draw", art, "-n", "3", "--seed", "1", "--out", tmp_path / "d.csv"],
+        "select": ["select", art, "--out", tmp_path / "s.parquet"],
+    }[command]
+    before = _state(tmp_path)
+    code, stdout, err = run_cli(*args)
+    assert code == 2 and _state(tmp_path) == before
+    line = stdout if command == "verify" else err
+    assert line.count("\n") == 1 and str(art) in line
+    assert "nested deeper" in line or "not a JSON object" in line
+
+
+def test_malformed_cache_entry_is_recomputed_by_the_command(
+    tmp_path: Path, data_csv: Path, run_cli: Cli
+) -> None:
+    """fingerprint with a damaged memo entry prints the right fingerprint and repairs the memo."""
+    cache = tmp_path / "cache"
+    run_cli("fingerprint", data_csv, "-c", "hours", "--cache-dir", cache)
+    memo = cache / "fingerprints.json"
+    doc = json.loads(memo.read_text())
+    key = next(iter(doc))
+    doc[key]["fingerprint"] = "not a fingerprint"
+    memo.write_text(json.dumps(doc))
+    code, stdout, err = run_cli("fingerprint", data_csv, "-c", "hours", "--cache-dir", cache)
+    # source: the values as pandas reads them, hashed without any memo
+    expected = fingerprint_file(data_csv, "hours")
+    assert (code, err, stdout.strip()) == (0, "", expected)
+    assert json.loads(memo.read_text())[key]["fingerprint"] == expected
+
+
+def test_an_impossible_count_is_refused(tmp_path: Path, gamma_artifact: Path, run_cli: Cli) -> None:
+    """-n beyond the machine's memory is refused in one line before any draw."""
+    out = tmp_path / "d.parquet"
+    _refused(
+        run_cli,
+        tmp_path,
+        ["draw", gamma_artifact, "-n", 10**15, "--seed", 1, "--out", out],
+        "-n: 1000000000000000 draws need",
+    )
+
+
+def test_version_and_help_import_no_heavy_library() -> None:
+    """`samplewright --version` and `--help` load no numpy, scipy, pandas or pyarrow."""
+    code = (
+        "import sys\n"
+        "from samplewright.pipeline.cli.main import main\n"
+        "for argv in (['--version'], ['--help'], ['fit', '--help']):\n"
+        "    try:\n"
+        "        main(argv)\n"
+        "    except SystemExit:\n"
+        "        pass\n"
+        "heavy = ('numpy', 'scipy', 'pandas', 'pyarrow')\n"
+        "print(sorted(m for m in heavy if m in sys.modules), file=sys.stderr)\n"
+    )
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert proc.stderr.strip() == "[]"
+
+
+@pytest.mark.parametrize(
+    ("args", "message"),
+    [
+        (["draw", "a.parquet", "-n", "abc", "--seed", "1", "--out", "d.csv"], "argument -n"),
+        (["fit", "d.csv", "-m", "gamma"], "required: --out"),
+        (["nosuch"], "invalid choice: 'nosuch'"),
+        (["fit", "d.csv", "-m", "gamma", "--out", "a.parquet", "--colour", "red"], "--colour"),
+    ],
+)
+def test_unparsable_command_lines_are_one_line(
+    tmp_path: Path, run_cli: Cli, args: list[str], message: str
+) -> None:
+    """A command line argparse cannot parse gives exit 2 and one line naming the argument."""
+    _refused(run_cli, tmp_path, args, message)
+
+
+def test_verify_summarises_failures_on_stderr(
+    tmp_path: Path, gamma_artifact: Path, run_cli: Cli
+) -> None:
+    """verify lists every artifact on stdout and names the first failure in one stderr line."""
+    code, stdout, err = run_cli("verify", gamma_artifact, tmp_path / "none.parquet")
+    assert code == 2 and stdout.splitlines()[0].startswith("ok ")
+    assert err.count("\n") == 1 and "1 of 2 artifact(s) failed" in err and "none.parquet" in err

@@ -227,3 +227,89 @@ def test_without_cache_dir_nothing_is_written(tmp_path: Path, csv_file: Path) ->
     before = sorted(p.name for p in tmp_path.iterdir())
     fingerprint_file(csv_file, "hours")
     assert sorted(p.name for p in tmp_path.iterdir()) == before
+
+
+def _fresh_csv(tmp_path: Path) -> Path:
+    """The module's CSV, with a modification time well in the past."""
+    f = tmp_path / "repairs.csv"
+    _frame().to_csv(f, index=False, float_format="%.17g")
+    os.utime(f, (1e9, 1e9))
+    return f
+
+
+def _one_entry(cache: Path) -> tuple[str, dict]:
+    data = json.loads((cache / "fingerprints.json").read_text())
+    assert len(data) == 1
+    return next(iter(data.items()))
+
+
+@pytest.mark.parametrize(
+    "damage",
+    [
+        lambda k, e: {k: {**e, "fingerprint": "0" * 64}},  # edited value, check digest stale
+        lambda k, e: {k: {**e, "fingerprint": 12345}},
+        lambda k, e: {k: {**e, "size": "1500"}},
+        lambda k, e: {k: {key: v for key, v in e.items() if key != "inode"}},
+        lambda k, e: {k: [e]},
+        lambda k, e: {k.replace(",", ", "): e},  # not the canonical key text
+        lambda k, e: {k: {**e, "extra": 1}},
+        lambda k, e: [k, e],  # the whole memo of the wrong type
+        lambda k, e: "[" * 100_000 + "]" * 100_000,  # nested deeper than any reader allows
+    ],
+    ids=[
+        "edited-fp",
+        "fp-type",
+        "size-type",
+        "missing-field",
+        "entry-type",
+        "key-form",
+        "extra-field",
+        "memo-type",
+        "deep",
+    ],
+)
+def test_malformed_cache_entries_are_recomputed(tmp_path: Path, damage: object) -> None:
+    """A damaged, edited or foreign-shaped memo entry is dropped, the fingerprint is computed
+    from the file again, and the memo is rewritten with a valid entry only."""
+    csv = _fresh_csv(tmp_path)
+    cache = tmp_path / "cache"
+    fingerprint_file(csv, "hours", cache_dir=cache)
+    key, entry = _one_entry(cache)
+    damaged = damage(key, entry)  # type: ignore[operator]
+    text = damaged if isinstance(damaged, str) else json.dumps(damaged)
+    (cache / "fingerprints.json").write_text(text)
+    assert fingerprint_file(csv, "hours", cache_dir=cache) == fingerprint_arrays(VALUES)
+    assert _one_entry(cache) == (key, entry)
+    assert sorted(p.name for p in cache.iterdir()) == ["fingerprints.json"]
+
+
+def test_a_wrong_entry_is_dropped_by_the_snapshot_job(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+) -> None:
+    """A well-formed but wrong memo entry (as after a rewrite within the file system's time
+    resolution) fails the snapshot job once, which drops it, so the next plan is right."""
+    import samplewright.store.fingerprints as fps
+    from samplewright.pipeline.cli import main
+    from samplewright.pipeline.plan import Plan
+
+    monkeypatch.chdir(tmp_path)
+    _fresh_csv(tmp_path)
+    ds = {"path": "repairs.csv", "column": "hours", "methods": ["empirical"]}
+    config = {"store": "st", "datasets": {"h": ds}}
+    right = Plan(config).fingerprint("h")
+    memo = tmp_path / "st" / "fingerprints.json"
+    key, entry = next(iter(json.loads(memo.read_text()).items()))
+    wrong = fingerprint_arrays(VALUES + 1.0)
+    stat = {k: entry[k] for k in ("size", "mtime_ns", "inode")}
+    forged = {**stat, "fingerprint": wrong, "check": fps._entry_check(key, stat, wrong)}
+    memo.write_text(json.dumps({key: forged}))
+    assert Plan(config).fingerprint("h") == wrong  # well-formed, so the plan believes it
+    out = tmp_path / "snap.parquet"
+    args = ["snapshot", "repairs.csv", "-c", "hours", "--expect-fingerprint", wrong[:20]]
+    code = main([*args, "--cache-dir", "st", "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2 and "changed after the workflow was planned" in err
+    assert "cached fingerprint was dropped" in err and not out.exists()
+    # source: the values as pandas reads them, hashed without the memo
+    values = pd.read_csv("repairs.csv", float_precision="round_trip")["hours"].to_numpy()
+    assert Plan(config).fingerprint("h") == right == fingerprint_arrays(values)

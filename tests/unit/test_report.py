@@ -1,4 +1,4 @@
-"""Check summaries and the show view (samplewright.check.render)."""
+"""Check summaries and the show view (samplewright.check.render, written by the pipeline)."""
 
 from __future__ import annotations
 
@@ -10,7 +10,8 @@ import pytest
 from scipy import stats
 
 import samplewright as sw
-from samplewright.check.render import CAUTION, _ks_distance, check_candidates, write_check
+from samplewright.check.render import CAUTION, _ks_distance, check_candidates
+from samplewright.pipeline.cli.workflow import write_check
 
 
 def test_ks_distance_matches_scipy_for_a_continuous_model() -> None:

@@ -1,67 +1,244 @@
 """Method ``auto``: fit a candidate set of families and keep the best by a documented rule.
 
 Rule: every candidate is fitted by maximum likelihood (fits that fail are listed with their error
-and never chosen); the one with the lowest AIC (or BIC, ``criterion="bic"``) wins; criteria equal
-to 8 decimals tie, and ties go to fewer estimated parameters, then to the candidate listed first.
+and never chosen). Candidates whose fit suits the data's nature come first (support rule below);
+among them the one with the lowest AIC (or BIC, ``criterion="bic"``) wins; criteria equal to 8
+decimals tie, and ties go to fewer estimated parameters, then to the candidate listed first.
 Goodness of fit does not choose, it informs: for each candidate the Kolmogorov–Smirnov,
 Anderson–Darling and Cramér–von Mises statistics are recorded with p-values from a parametric
 bootstrap that refits the family on every replicate (``n_resamples``, default 99; 0 turns it
-off). The bootstrap's random stream comes from ``seed`` (default 0), so the same data always give
-the same artifact. A chosen family whose bootstrap p-value is at most 0.01 on any statistic is
-flagged in the record (``poor_fit``): the best of a poor set is still a poor model. (The
-smallest attainable p-value is 1 / (1 + n_resamples), so the flag needs n_resamples >= 99.)
+off). A chosen family whose bootstrap p-value is at most 0.01 on any statistic is flagged in the
+record (``poor_fit``): the best of a poor set is still a poor model. (The smallest attainable
+p-value is 1 / (1 + n_resamples), so the flag needs n_resamples >= 99.) Bootstrap refits that
+fail are left out of the p-values and counted (``n_failed``); when more than 10% fail, the
+candidate's p-values are marked unreliable (``pvalues_reliable``) and do not raise the flag.
 
-Default candidates, by the data: non-negative integers -> poisson, negative_binomial, geometric;
-all values > 0 -> lognormal, gamma, weibull, exponential, inverse_gaussian; otherwise -> normal,
-logistic, gumbel, student_t. Families fitted by a general optimiser (loglogistic, gev, ...) can
-be listed in ``candidates``; they make the bootstrap noticeably slower on large samples.
+Support rule: a candidate whose fit has a support warning ranks after every candidate without
+one, whatever its criterion: it puts more than 0.1% of its mass below 0 while no value is
+negative (``support_below_zero``), or its mean is infinite (``infinite_mean``), or the fitting
+step recorded another support warning (``support_beyond_data``). The warnings a fit records in
+its diagnostics (``warnings``) are used; for a fit that records none, auto checks the first two
+itself. Among warned candidates the criterion decides as above; the chosen one's warnings are
+kept in the sampler's ``diagnostics["warnings"]``.
+
+Counts or measurements (whole-number data). Data that are all whole numbers >= 0 are not
+necessarily counts: amounts in whole currency units and durations in whole minutes are
+measurements recorded to a resolution. The rule reads the data's own evidence: whole numbers are
+**counts** when they are dense on the integers, i.e. more than half of the integers from the
+data's 10% to their 90% quantile occur in the data (small integers with repeats: the integer
+grid is what the data are made of); otherwise they are **measurements** (sparse on the
+integers: the unit is a recording resolution much finer than the data's spread, like 400
+claim amounts in whole euros spread over tens of thousands; or every value lies on a coarser
+grid, like minutes recorded in steps of 5, which fills at most a fifth of the integers). Few
+large counts look sparse too and are read as measurements; option ``integers`` ("counts" or
+"measurements") states what the data are, and ``candidates`` overrides everything.
+
+Default candidates: counts -> poisson, negative_binomial, geometric; all values > 0 ->
+lognormal, gamma, weibull, exponential, inverse_gaussian; values >= 0 with zeros -> normal,
+logistic, gumbel, student_t, exponential; otherwise normal, logistic, gumbel, student_t.
+Families fitted by a general optimiser (loglogistic, gev, ...) can be listed in ``candidates``;
+they make the bootstrap noticeably slower on large samples. A density and a probability mass are
+never ranked together (:mod:`samplewright.check.comparable`).
+
+Recorded values: when the data lie on a grid (:mod:`samplewright.check.resolution`), the
+bootstrap replicates of continuous candidates are rounded to it; when the grid makes ties
+(coarse), a ``recording_resolution`` warning is recorded.
+
+Randomness: the bootstrap's stream comes from ``rng`` (a Generator or seed, given to
+:func:`fit_auto` or the catalog fitter), else from option ``seed`` (an int >= 0), else from a
+seed derived from the data's values and weights (sha256), so the same data always give the same
+artifact and different datasets never share a stream. A pipeline passes ``seed`` derived from
+its root seed and stable keys (dataset, method label, purpose). The record keeps the seed used
+(``seed``) and where it came from (``seed_source``: ``"rng"``, ``"option"`` or ``"data"``).
 """
 
 from __future__ import annotations
 
+import hashlib
 from typing import Any
 
 import numpy as np
 
-from samplewright.check.compare import rank_candidates
+from samplewright.check.compare import CandidateResult, rank_candidates
 from samplewright.check.dispersion import count_diagnostics
+from samplewright.check.resolution import recording_resolution
 from samplewright.core.checks import CheckedSample
 from samplewright.core.errors import MethodError
+from samplewright.core.randomness import SeedLike, make_rng
 from samplewright.distributions.families import FAMILIES, get_family
 from samplewright.distributions.parametric import ParametricSampler
-from samplewright.fitting.catalog import CRITERIA
+from samplewright.distributions.steps import step_index
+from samplewright.fitting.catalog import CRITERIA, INTEGER_READINGS, IntegerReading
+from samplewright.fitting.registry import check_options, check_sample_for
 
-__all__ = ["COUNTS", "POOR_FIT_P", "POSITIVE", "REAL_LINE", "default_candidates", "fit_sample"]
+__all__ = [
+    "BELOW_ZERO_SHARE",
+    "COUNTS",
+    "DENSE_SHARE",
+    "NON_NEGATIVE",
+    "POOR_FIT_P",
+    "POSITIVE",
+    "REAL_LINE",
+    "SUPPORT_KINDS",
+    "default_candidates",
+    "dense_share",
+    "fit_auto",
+    "fit_sample",
+    "read_integers",
+    "support_warnings",
+]
 
 POSITIVE = ("lognormal", "gamma", "weibull", "exponential", "inverse_gaussian")
 REAL_LINE = ("normal", "logistic", "gumbel", "student_t")
+NON_NEGATIVE = (*REAL_LINE, "exponential")
 COUNTS = ("poisson", "negative_binomial", "geometric")
 POOR_FIT_P = 0.01
+# whole numbers are counts when more than this share of the integers in their bulk occur
+DENSE_SHARE = 0.5
+# mass below 0 above which a fit to non-negative data gets a support warning
+BELOW_ZERO_SHARE = 0.001
+# warning kinds that rank a candidate after those without
+SUPPORT_KINDS = ("support_below_zero", "support_beyond_data", "infinite_mean")
 
 
-def default_candidates(x: np.ndarray) -> tuple[str, ...]:
-    """The candidate families used when none are given (see module docstring)."""
-    if np.all(x >= 0) and np.all(x == np.round(x)):
+def _is_whole(x: np.ndarray) -> bool:
+    return bool(np.all(x >= 0) and np.all(x == np.round(x)))
+
+
+def dense_share(values: np.ndarray, weights: np.ndarray | None = None) -> float:
+    """Share of the integers from the 10% to the 90% quantile (inverse-CDF quantiles of the
+    frequency-weighted data) that occur in the data.
+
+    >>> round(dense_share(np.array([0.0, 1, 1, 2, 2, 2, 3, 4, 6])), 4)  # 6 of 0..6
+    0.8571
+    >>> round(dense_share(np.array([120.0, 4375, 980, 15020, 2210])), 6)  # 5 of 120..15020
+    0.000336
+    """
+    order = np.argsort(values, kind="stable")
+    xs = values[order]
+    w = np.ones(xs.size) if weights is None else weights[order]
+    running = np.cumsum(w)
+    lo, hi = xs[step_index(running / running[-1], np.array([0.1, 0.9]))]
+    inside = np.unique(xs[(xs >= lo) & (xs <= hi)])
+    return float(inside.size / (hi - lo + 1.0))
+
+
+def read_integers(
+    values: np.ndarray, weights: np.ndarray | None = None, integers: IntegerReading = "detect"
+) -> tuple[str, float | None]:
+    """How data are read: ``("counts" | "measurements", dense share or None)``.
+
+    Values that are not all whole numbers >= 0 are measurements; whole numbers follow option
+    ``integers``, or with ``"detect"`` the rule of the module docstring.
+
+    >>> read_integers(np.array([0.0, 1, 1, 2, 2, 2, 3, 4, 5]))
+    ('counts', 1.0)
+    >>> read_integers(np.array([0.5, 1.5, 2.0]))
+    ('measurements', None)
+    """
+    if not _is_whole(values):
+        return "measurements", None
+    share = dense_share(values, weights)
+    if integers != "detect":
+        return integers, share
+    return ("counts" if share > DENSE_SHARE else "measurements"), share
+
+
+def default_candidates(
+    x: np.ndarray, weights: np.ndarray | None = None, *, integers: IntegerReading = "detect"
+) -> tuple[str, ...]:
+    """The candidate families used when none are given (see module docstring).
+
+    >>> default_candidates(np.array([0.0, 1, 1, 2, 2, 2, 3, 4, 6]))
+    ('poisson', 'negative_binomial', 'geometric')
+    >>> default_candidates(np.array([120.0, 4375, 980, 15020, 2210]))[0]
+    'lognormal'
+    """
+    reading, _ = read_integers(x, weights, integers)
+    if reading == "counts":
         return COUNTS
     if np.all(x > 0):
         return POSITIVE
+    if np.all(x >= 0):
+        return NON_NEGATIVE
     return REAL_LINE
+
+
+def support_warnings(sampler: ParametricSampler, x: np.ndarray) -> list[dict[str, str]]:
+    """The support warnings of a fit: those its diagnostics record, else auto's own checks
+    (mass below 0 for non-negative data above :data:`BELOW_ZERO_SHARE`; an infinite mean).
+
+    >>> s = ParametricSampler("normal", {"mu": 1.0, "sigma": 1.0})
+    >>> [w["kind"] for w in support_warnings(s, np.array([0.5, 1.0, 2.0]))]
+    ['support_below_zero']
+    """
+    recorded = sampler.diagnostics.get("warnings")
+    if recorded is not None:
+        return [dict(w) for w in recorded]
+    name = sampler.family.name
+    out = []
+    if not sampler.family.discrete and float(np.min(x)) >= 0:
+        below = float(sampler.cdf(0.0))
+        if below > BELOW_ZERO_SHARE:
+            out.append(
+                {
+                    "kind": "support_below_zero",
+                    "message": f"{name} puts {below:.2%} of its mass below 0, but no value is "
+                    "negative",
+                }
+            )
+    with np.errstate(all="ignore"):
+        mean = sampler.mean
+    if not np.isfinite(mean):
+        out.append({"kind": "infinite_mean", "message": f"{name} as fitted has no finite mean"})
+    return out
 
 
 def _finite(v: float) -> float | None:
     return float(v) if np.isfinite(v) else None
 
 
-def fit_sample(sample: CheckedSample, method: str = "auto", **options: Any) -> ParametricSampler:
-    """Catalog fitter of ``auto``: fit every candidate, rank them, return the winner carrying
-    the whole ranking in its diagnostics."""
-    x, w = sample.values, sample.weights
-    candidates = options.get("candidates") or default_candidates(x)
-    if not isinstance(candidates, list | tuple) or not all(isinstance(c, str) for c in candidates):
-        raise MethodError("option 'candidates' of auto: expected a list of family names")
-    bad = [c for c in candidates if c not in FAMILIES]
-    if bad:
-        raise MethodError(f"option 'candidates' of auto: unknown family {bad[0]!r}")
+def _data_seed(x: np.ndarray, w: np.ndarray | None) -> int:
+    """A seed from the data's values and weights (53 bits, so JSON keeps it exactly)."""
+    h = hashlib.sha256(b"samplewright-auto-bootstrap-v1")
+    h.update(np.ascontiguousarray(x, dtype="<f8").tobytes())
+    if w is not None:
+        h.update(b"weights")
+        h.update(np.ascontiguousarray(w, dtype="<f8").tobytes())
+    return int.from_bytes(h.digest()[:8], "little") >> 11
+
+
+def _randomness(
+    options: dict[str, Any], rng: SeedLike, x: np.ndarray, w: np.ndarray | None
+) -> tuple[np.random.Generator, int | None, str]:
+    """The bootstrap's generator, the seed recorded and where it came from."""
+    seed = options.get("seed")
+    if seed is not None and (isinstance(seed, bool) or not isinstance(seed, int) or seed < 0):
+        raise MethodError(f"option 'seed' of auto: expected an int >= 0, found {seed!r}")
+    if rng is not None:
+        if seed is not None:
+            raise MethodError("option 'seed' of auto: give either rng or seed, not both")
+        if isinstance(rng, int) and not isinstance(rng, bool):
+            return make_rng(rng), int(rng), "rng"
+        return make_rng(rng), None, "rng"
+    if seed is not None:
+        return make_rng(seed), seed, "option"
+    derived = _data_seed(x, w)
+    return make_rng(derived), derived, "data"
+
+
+def _check_options(options: dict[str, Any], x: np.ndarray) -> tuple[list[str] | None, str, int]:
+    candidates = options.get("candidates")
+    if candidates is not None:
+        if (
+            not isinstance(candidates, list | tuple)
+            or not candidates
+            or not all(isinstance(c, str) for c in candidates)
+        ):
+            raise MethodError("option 'candidates' of auto: expected a list of family names")
+        bad = [c for c in candidates if c not in FAMILIES]
+        if bad:
+            raise MethodError(f"option 'candidates' of auto: unknown family {bad[0]!r}")
     criterion = options.get("criterion", "aic")
     if criterion not in CRITERIA:
         raise MethodError(
@@ -72,51 +249,96 @@ def fit_sample(sample: CheckedSample, method: str = "auto", **options: Any) -> P
         raise MethodError(
             f"option 'n_resamples' of auto: expected an int >= 0, found {n_resamples!r}"
         )
-    seed = options.get("seed", 0)
-    if isinstance(seed, bool) or not isinstance(seed, int) or seed < 0:
-        raise MethodError(f"option 'seed' of auto: expected an int >= 0, found {seed!r}")
+    integers = options.get("integers", "detect")
+    if integers not in INTEGER_READINGS:
+        raise MethodError(
+            f"option 'integers' of auto: expected one of {', '.join(INTEGER_READINGS)}, "
+            f"found {integers!r}"
+        )
+    return (None if candidates is None else list(candidates)), criterion, n_resamples
 
+
+def _row(rank: int, c: CandidateResult, warnings: list[dict[str, str]]) -> dict[str, Any]:
+    return {
+        "rank": rank,
+        "family": c.family,
+        "params": {k: float(v) for k, v in c.params.items()},
+        "n_params": c.n_params,
+        "loglik": _finite(c.loglik),
+        "aic": _finite(c.aic),
+        "bic": _finite(c.bic),
+        "statistics": {k: _finite(v) for k, v in c.statistics.items()},
+        "pvalues": {k: _finite(v) for k, v in c.pvalues.items()},
+        "n_failed": c.n_failed,
+        "pvalues_reliable": c.reliable,
+        "warnings": warnings,
+        "error": c.error,
+    }
+
+
+def fit_sample(
+    sample: CheckedSample, method: str = "auto", *, rng: SeedLike = None, **options: Any
+) -> ParametricSampler:
+    """Catalog fitter of ``auto``: fit every candidate, rank them, return the winner carrying
+    the whole ranking in its diagnostics (``rng``: see the module docstring)."""
+    x, w = sample.values, sample.weights
+    given, criterion, n_resamples = _check_options(options, x)
+    integers = options.get("integers", "detect")
+    reading, share = read_integers(x, w, integers)
+    candidates = given or list(default_candidates(x, w, integers=integers))
+    gen, seed, seed_source = _randomness(options, rng, x, w)
+    grid = recording_resolution(x, w)
     ranked = rank_candidates(
         x,
-        list(candidates),
+        candidates,
         criterion=criterion,
         weights=w,
         n_resamples=n_resamples,
-        rng=np.random.default_rng(seed),
+        rng=gen,
+        resolution=grid.step,
     )
-    best = ranked[0]
+    fitted: list[tuple[CandidateResult, ParametricSampler | None, list[dict[str, str]]]] = []
+    for c in ranked:
+        if c.error is not None:
+            fitted.append((c, None, []))
+            continue
+        s = ParametricSampler(c.family, c.params, loglik=c.loglik, aic=c.aic, bic=c.bic)
+        fitted.append((c, s, support_warnings(s, x)))
+
+    def group(item: tuple[CandidateResult, Any, list[dict[str, str]]]) -> int:
+        c, _, warned = item
+        if c.error is not None:
+            return 2
+        return 1 if any(wr.get("kind") in SUPPORT_KINDS for wr in warned) else 0
+
+    ordered = sorted(fitted, key=group)  # stable: the criterion's order within each group
+    best, _, best_warnings = ordered[0]
     if best.error is not None:
         raise MethodError(f"auto: no candidate could be fitted (first error: {best.error})")
-    table = []
-    for rank, c in enumerate(ranked, start=1):
-        table.append(
-            {
-                "rank": rank,
-                "family": c.family,
-                "params": {k: float(v) for k, v in c.params.items()},
-                "n_params": c.n_params,
-                "loglik": _finite(c.loglik),
-                "aic": _finite(c.aic),
-                "bic": _finite(c.bic),
-                "statistics": {k: _finite(v) for k, v in c.statistics.items()},
-                "pvalues": {k: _finite(v) for k, v in c.pvalues.items()},
-                "error": c.error,
-            }
-        )
-    poor = bool(best.pvalues) and min(best.pvalues.values()) <= POOR_FIT_P
+    table = [_row(rank, c, warned) for rank, (c, _, warned) in enumerate(ordered, start=1)]
+    discrete = get_family(best.family).discrete
+    warnings = list(best_warnings)
+    if grid.coarse and not discrete:
+        warnings.append({"kind": "recording_resolution", "message": grid.message})
+    poor = best.reliable and bool(best.pvalues) and min(best.pvalues.values()) <= POOR_FIT_P
     diagnostics: dict[str, Any] = {
         "auto": {
             "criterion": criterion,
-            "rule": f"lowest {criterion.upper()}; ties to fewer parameters, then listed order",
+            "rule": f"support warnings last, then lowest {criterion.upper()}; ties to fewer "
+            "parameters, then listed order",
             "candidates": list(candidates),
+            "reading": {"as": reading, "integers": integers, "dense_share": share},
+            "resolution": grid.as_dict(),
             "n_resamples": n_resamples,
             "seed": seed,
+            "seed_source": seed_source,
             "chosen": best.family,
             "poor_fit": poor,
             "ranking": table,
-        }
+        },
+        "warnings": warnings,
     }
-    if get_family(best.family).discrete:
+    if discrete:
         diagnostics.update(count_diagnostics(x, w))
     return ParametricSampler(
         best.family,
@@ -127,3 +349,24 @@ def fit_sample(sample: CheckedSample, method: str = "auto", **options: Any) -> P
         method="auto",
         diagnostics=diagnostics,
     )
+
+
+def fit_auto(
+    values: Any, *, weights: Any = None, rng: SeedLike = None, **options: Any
+) -> ParametricSampler:
+    """``fit(values, "auto", ...)`` with the bootstrap's randomness from ``rng``.
+
+    ``rng`` is a Generator, a SeedSequence or an int (see
+    :func:`~samplewright.core.randomness.make_rng`); a pipeline derives it from its root seed
+    and stable keys (:func:`~samplewright.core.randomness.stream_rng`). Options as for
+    ``fit(..., "auto")`` (module docstring); ``seed`` and ``rng`` exclude each other.
+
+    >>> x = np.random.default_rng(3).gamma(4.0, 2.0, 200)
+    >>> a = fit_auto(x, rng=np.random.default_rng(5), n_resamples=9)
+    >>> b = fit_auto(x, rng=np.random.default_rng(5), n_resamples=9)
+    >>> a.diagnostics == b.diagnostics, a.diagnostics["auto"]["seed_source"]
+    (True, 'rng')
+    """
+    spec = check_options("auto", options)
+    sample = check_sample_for(spec, values, weights)
+    return fit_sample(sample, "auto", rng=rng, **options)

@@ -12,7 +12,12 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from samplewright.check.gof import check_count, edf_statistics, goodness_of_fit
+from samplewright.check.gof import (
+    Resolution,
+    check_count,
+    edf_statistics,
+    goodness_of_fit,
+)
 from samplewright.core.checks import check_sample
 from samplewright.core.errors import FitError, MethodError
 from samplewright.core.randomness import SeedLike, make_rng
@@ -25,7 +30,11 @@ __all__ = ["CandidateResult", "rank_candidates"]
 
 @dataclass(frozen=True)
 class CandidateResult:
-    """One candidate family in a ranking; ``error`` holds the reason when its fit failed."""
+    """One candidate family in a ranking; ``error`` holds the reason when its fit failed.
+
+    ``n_failed`` counts the bootstrap refits that failed and ``reliable`` says whether at most
+    :data:`~samplewright.check.gof.MAX_FAILED_SHARE` of them did (True without a bootstrap).
+    """
 
     family: str
     params: dict[str, float] = field(default_factory=dict)
@@ -36,6 +45,8 @@ class CandidateResult:
     statistics: dict[str, float] = field(default_factory=dict)
     pvalues: dict[str, float] = field(default_factory=dict)
     error: str | None = None
+    n_failed: int = 0
+    reliable: bool = True
 
     @property
     def ok(self) -> bool:
@@ -52,6 +63,7 @@ def rank_candidates(
     options: Mapping[str, Mapping[str, Any]] | None = None,
     n_resamples: int = 0,
     rng: SeedLike = None,
+    resolution: Resolution = "detect",
 ) -> tuple[CandidateResult, ...]:
     """Fit every candidate family and order them best first.
 
@@ -59,6 +71,11 @@ def rank_candidates(
     equal to 8 decimal places tie); a tie goes to fewer estimated parameters, then to the family
     listed first. Failed fits follow, in the order listed, each with its one-line ``error``. The
     first element is the selection; the ranking does not use the goodness-of-fit p-values.
+
+    Comparable candidates only: the families must be all continuous (densities) or all discrete
+    (probability masses). A log-likelihood of a density and one of a mass are on different
+    scales (a density's depends on the unit of measurement), so their AIC or BIC say nothing
+    about which model is better; a mixed set is refused.
 
     Parameters
     ----------
@@ -74,6 +91,9 @@ def rank_candidates(
         When positive, bootstrap p-values are computed for every successful fit (each candidate
         gets its own stream spawned from ``rng`` in the listed order); 0 gives statistics only.
     rng : None, int, SeedSequence or Generator
+    resolution : "detect", float or None
+        Recording resolution the bootstrap replicates of continuous families are rounded to
+        (:func:`~samplewright.check.gof.goodness_of_fit`).
 
     Returns
     -------
@@ -111,18 +131,29 @@ def rank_candidates(
         opts = dict(options.get(name, {}))
         try:
             if n_resamples:
-                g = goodness_of_fit(x, name, n_resamples=n_resamples, rng=stream, weights=w, **opts)
+                g = goodness_of_fit(
+                    x,
+                    name,
+                    n_resamples=n_resamples,
+                    rng=stream,
+                    weights=w,
+                    resolution=resolution,
+                    **opts,
+                )
                 params, ll, aic, bic = g.params, g.loglik, g.aic, g.bic
                 stats_, pvals, k = g.statistics, g.pvalues, g.n_params
+                n_failed, reliable = g.n_failed, g.reliable
             else:
                 out = fit_family(name, x, w, **opts)
                 params, ll, aic, bic, k = out.params, out.loglik, out.aic, out.bic, out.n_params
                 stats_ = edf_statistics(x, name, params, weights=w)
-                pvals = {}
+                pvals, n_failed, reliable = {}, 0, True
         except (FitError, MethodError) as err:
             failed.append(CandidateResult(name, error=str(err)))
             continue
-        cand = CandidateResult(name, dict(params), ll, k, aic, bic, stats_, pvals)
+        cand = CandidateResult(
+            name, dict(params), ll, k, aic, bic, stats_, pvals, None, n_failed, reliable
+        )
         ok.append(((round(aic if criterion == "aic" else bic, 8), k, i), cand))
     ok.sort(key=lambda t: t[0])
     return tuple(c for _, c in ok) + tuple(failed)

@@ -22,8 +22,23 @@ over the data's range.
 p-values come from a parametric bootstrap that refits the family to every replicate (the
 parameters were estimated, so classical tables do not apply): ``B`` replicates of size
 ``round(N)`` are drawn from the fitted family, refitted with the same options, and
-``p = (1 + #{T* >= T} + n_failed) / (1 + B)``; a replicate whose refit fails counts as exceeding
-(conservative). Replicates of normal, and of lognormal and exponential with a fixed location, are
+``p = (1 + #{T* >= T}) / (1 + B_ok)`` over the ``B_ok = B - n_failed`` replicates whose refit
+succeeded. A failed refit (the fit refused the replicate, or its statistics are not finite) is
+reported in ``n_failed`` and left out: counting it as exceeding would floor the p-value at
+``n_failed / (B + 1)`` whatever the data say. The null distribution is then the one of the
+replicates that can be refitted, which is the right one when failures are rare; when more than
+:data:`MAX_FAILED_SHARE` (10%) of the refits fail, ``reliable`` is False and the p-values should
+not be trusted (a 3-parameter family near its boundary, a negative binomial on near-Poisson
+counts); with every refit failed they are NaN.
+
+Recorded values (a recording resolution ``h``, :mod:`samplewright.check.resolution`): continuous
+data written down to a grid (whole hours, cents) have ties, and a continuous family would be
+rejected for them alone. With ``resolution="detect"`` (the default) the grid is found from the
+data and every replicate of a continuous family is rounded to it
+(:func:`~samplewright.check.resolution.snap_to_grid`, kept inside the fitted support) before it
+is refitted and tested, exactly as the data were, so the null distribution is honest for
+recorded data. The fit itself treats the recorded values as exact. Replicates of discrete
+families are never rounded. Replicates of normal, and of lognormal and exponential with a fixed location, are
 refitted in closed form for a whole batch at once; the others one by one (the replicate engine
 is :func:`samplewright.resample.replicates.parametric_replicates`). Randomness comes only from
 the ``rng`` argument (a numpy Generator or anything
@@ -41,6 +56,7 @@ from typing import Any, Literal, get_args
 import numpy as np
 from scipy import special
 
+from samplewright.check.resolution import recording_resolution, snap_to_grid
 from samplewright.core.checks import check_sample
 from samplewright.core.errors import MethodError
 from samplewright.core.randomness import SeedLike
@@ -51,6 +67,8 @@ from samplewright.resample.replicates import DEFAULT_BATCH, parametric_replicate
 
 __all__ = [
     "GoodnessOfFitResult",
+    "MAX_FAILED_SHARE",
+    "Resolution",
     "STATISTICS",
     "Statistic",
     "check_count",
@@ -62,6 +80,10 @@ __all__ = [
 Statistic = Literal["ks", "ad", "cvm"]
 STATISTICS: tuple[Statistic, ...] = get_args(Statistic)
 _EPS = 1e-12
+# share of failed refits above which bootstrap p-values are flagged unreliable
+MAX_FAILED_SHARE = 0.10
+# a recording resolution: found from the data ("detect"), given, or none (None)
+Resolution = float | Literal["detect"] | None
 
 
 @dataclass(frozen=True)
@@ -75,13 +97,18 @@ class GoodnessOfFitResult:
     statistics : dict
         ``ks``, ``ad``, ``cvm`` of the data against the fitted CDF.
     pvalues : dict
-        Same keys: bootstrap p-values ``(1 + #{T* >= T} + n_failed) / (1 + n_resamples)``.
+        Same keys: bootstrap p-values ``(1 + #{T* >= T}) / (1 + n_resamples - n_failed)`` over
+        the replicates whose refit succeeded (NaN when none did).
     n_resamples : int
         Number of bootstrap replicates drawn.
     n_failed : int
-        Replicates whose refit failed (counted as exceeding the observed statistic).
+        Replicates whose refit failed (left out of the p-values).
     n_params : int
         Number of estimated parameters.
+    reliable : bool
+        At most :data:`MAX_FAILED_SHARE` of the refits failed.
+    resolution : float or None
+        The grid the replicates were rounded to (None: not rounded).
     """
 
     family: str
@@ -94,6 +121,8 @@ class GoodnessOfFitResult:
     bic: float
     n_failed: int = 0
     n_params: int = 0
+    reliable: bool = True
+    resolution: float | None = None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -217,13 +246,19 @@ def _bootstrap(
     batch: int,
     rng: SeedLike,
     options: Mapping[str, Any],
+    resolution: float | None = None,
 ) -> tuple[np.ndarray, int]:
     """Statistics of ``n_resamples`` replicates of ``m`` values from the fit ``out`` (rows of NaN
-    where the refit failed) and the number of failed refits."""
+    where the refit failed) and the number of failed refits; replicates are rounded to
+    ``resolution`` when one is given."""
     ones = np.ones(m)
+    lower, upper = (float(e) for e in family.bound(out.params).support())
 
     def simulate(shape: tuple[int, int], gen: np.random.Generator) -> np.ndarray:
-        return family.draw(out.params, shape, gen)
+        sims = family.draw(out.params, shape, gen)
+        if resolution is None:
+            return sims
+        return snap_to_grid(sims, resolution, lower, upper)
 
     def closed_form(sims: np.ndarray) -> np.ndarray | None:
         u = None if family.discrete else _closed_form_u(family.name, sims, options)
@@ -268,6 +303,7 @@ def goodness_of_fit(
     rng: SeedLike = None,
     weights: Any = None,
     batch: int | None = None,
+    resolution: Resolution = "detect",
     **fit_options: Any,
 ) -> GoodnessOfFitResult:
     """Fit ``family`` to ``values`` and test the fit by a parametric bootstrap.
@@ -286,6 +322,11 @@ def goodness_of_fit(
         Frequency weights; replicates then have ``round(sum(weights))`` values.
     batch : int, optional
         Largest number of replicate values held in memory at once (default 2**20).
+    resolution : "detect", float or None
+        Grid the data were recorded on, to which every replicate of a continuous family is
+        rounded (module docstring): ``"detect"`` (default) finds it from the data
+        (:func:`~samplewright.check.resolution.recording_resolution`), a positive number gives
+        it, None turns rounding off.
     **fit_options
         Options of the family's fit (e.g. ``loc``), used for the data and every replicate.
 
@@ -311,10 +352,15 @@ def goodness_of_fit(
     min_obs = CATALOG[family].min_obs
     if m < min_obs:
         raise MethodError(f"weights: replicates would have {m} values; {family} needs {min_obs}")
-    null, failed = _bootstrap(fam, out, m, n_resamples, batch, rng, fit_options)
-    # T* >= T up to rounding (a replicate equal to the data must count); NaN rows compare False
-    exceed = np.sum(null >= observed * (1.0 - 1e-12), axis=0) + failed
-    pvalues = (1.0 + exceed) / (1.0 + n_resamples)
+    step = None if fam.discrete else _resolution(resolution, x, w)
+    null, _ = _bootstrap(fam, out, m, n_resamples, batch, rng, fit_options, step)
+    # a row with a non-finite statistic is a failed refit (its row is NaN)
+    ok = np.all(np.isfinite(null), axis=1)
+    n_ok = int(np.count_nonzero(ok))
+    failed = n_resamples - n_ok
+    # T* >= T up to rounding (a replicate equal to the data must count)
+    exceed = np.sum(null[ok] >= observed * (1.0 - 1e-12), axis=0)
+    pvalues = (1.0 + exceed) / (1.0 + n_ok) if n_ok else np.full(len(STATISTICS), np.nan)
     return GoodnessOfFitResult(
         family=family,
         params=dict(out.params),
@@ -326,4 +372,24 @@ def goodness_of_fit(
         bic=out.bic,
         n_failed=failed,
         n_params=out.n_params,
+        reliable=n_ok > 0 and failed <= MAX_FAILED_SHARE * n_resamples,
+        resolution=step,
     )
+
+
+def _resolution(resolution: Any, x: np.ndarray, w: np.ndarray) -> float | None:
+    """The grid replicates are rounded to: detected, given (checked) or None."""
+    if resolution is None:
+        return None
+    if isinstance(resolution, str) and resolution == "detect":
+        return recording_resolution(x, w).step
+    if (
+        isinstance(resolution, bool)
+        or not isinstance(resolution, int | float | np.number)
+        or not np.isfinite(resolution)
+        or not resolution > 0
+    ):
+        raise MethodError(
+            f"resolution: expected 'detect', a positive number or None, found {resolution!r}"
+        )
+    return float(resolution)

@@ -1,5 +1,8 @@
 """Human-readable views: ``samplewright show`` and the per-dataset check summary.
 
+Everything here works on objects already in memory (samplers, their metadata, data arrays) and
+returns documents or text; reading and writing files is the pipeline's job.
+
 A fitted distribution is a model of the data, not the truth: the check summary says how far each
 candidate is from the data and where it cannot reach (an empirical or interpolated sampler never
 exceeds the largest observation).
@@ -8,16 +11,20 @@ exceeds the largest observation).
 from __future__ import annotations
 
 import json
-from collections.abc import Sequence
-from pathlib import Path
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
 
 from samplewright.distributions.base import Sampler
-from samplewright.store.artifacts import atomic_write, load_sampler
 
-__all__ = ["CAUTION", "check_candidates", "format_show", "write_check"]
+__all__ = [
+    "CAUTION",
+    "check_candidates",
+    "check_summary",
+    "format_show",
+    "render_check_markdown",
+]
 
 CAUTION = (
     "A fitted distribution is a model: check it against the data and the engineering or actuarial "
@@ -269,37 +276,38 @@ def _markdown(dataset: str, n: int, rows: list[dict[str, Any]], n_censored: int 
     return md
 
 
-def write_check(
-    data_path: str | Path,
-    candidates: Sequence[str | Path],
+def check_summary(
+    x: np.ndarray,
+    samplers: Sequence[Sampler],
     *,
-    out: str | Path,
+    weights: np.ndarray | None = None,
+    censored: np.ndarray | None = None,
     dataset: str = "",
-    column: str | None = None,
 ) -> dict[str, Any]:
-    """Write the check summary as JSON to ``out`` and as Markdown beside it (``.md``).
+    """The check summary document of candidates ``samplers`` against data ``x``.
 
-    ``data_path`` is a snapshot (its column is known) or a data file with ``column``.
+    Holds the dataset name, the number of observations (and of censored ones), the reference
+    the candidates were measured against (``ecdf``, ``weighted_ecdf`` or ``kaplan_meier``), one
+    row per candidate from :func:`check_candidates`, and :data:`CAUTION`. Every number in it is
+    finite or null, so it is strict JSON.
     """
-    from samplewright.store.snapshots import read_data
-
-    data, _ = read_data(data_path, column)
-    samplers = [load_sampler(c) for c in candidates]
-    rows = check_candidates(data.values, samplers, weights=data.weights, censored=data.censored)
-    n_censored = int(np.sum(data.censored)) if data.censored is not None else 0
-    doc = {
+    rows = check_candidates(x, samplers, weights=weights, censored=censored)
+    n_censored = int(np.sum(censored)) if censored is not None else 0
+    return {
         "dataset": dataset,
-        "n_obs": data.n,
+        "n_obs": int(np.asarray(x).size),
         "n_censored": n_censored,
         "reference": "kaplan_meier"
         if n_censored
-        else ("weighted_ecdf" if data.weights is not None else "ecdf"),
+        else ("weighted_ecdf" if weights is not None else "ecdf"),
         "candidates": rows,
         "caution": CAUTION,
     }
-    out = Path(out)
-    text = json.dumps(doc, indent=2, allow_nan=False) + "\n"
-    md = "\n".join(_markdown(dataset or str(data_path), data.n, rows, n_censored))
-    atomic_write(out, lambda tmp: Path(tmp).write_text(text))
-    atomic_write(out.with_suffix(".md"), lambda tmp: Path(tmp).write_text(md))
-    return doc
+
+
+def render_check_markdown(summary: Mapping[str, Any], *, title: str | None = None) -> str:
+    """A check summary (from :func:`check_summary`) as Markdown, headed by ``title``
+    (default: the summary's dataset name)."""
+    heading = title or str(summary["dataset"])
+    rows = list(summary["candidates"])
+    return "\n".join(_markdown(heading, int(summary["n_obs"]), rows, int(summary["n_censored"])))

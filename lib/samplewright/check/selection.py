@@ -7,23 +7,23 @@ Rules (``by=``):
   (their "likelihood" is not comparable) and are chosen only if no parametric one exists.
 * ``first``: the first candidate listed (a fixed choice).
 
-The chosen artifact is written again under the selection's own key, with the ranking recorded in
-``diagnostics.selection``.
+This module ranks loaded samplers and describes the ranking (:func:`selection_record`, stored in
+the chosen artifact's ``diagnostics.selection``); reading and writing artifacts is the
+pipeline's job.
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
-from pathlib import Path
-from typing import Any
+from collections.abc import Mapping, Sequence
+from typing import Any, Literal
 
 from samplewright.core.errors import MethodError
-from samplewright.store.artifacts import load_sampler, write_sampler
 
-__all__ = ["SELECTION_RULES", "rank_loaded", "select_artifacts"]
+__all__ = ["SELECTION_RULES", "SelectionRule", "rank_loaded", "selection_record"]
 
-SELECTION_RULES = ("aic", "bic", "first")
+SelectionRule = Literal["aic", "bic", "first"]
+SELECTION_RULES: tuple[SelectionRule, ...] = ("aic", "bic", "first")
 
 
 def rank_loaded(samplers: Sequence[Any], by: str) -> list[int]:
@@ -45,19 +45,23 @@ def rank_loaded(samplers: Sequence[Any], by: str) -> list[int]:
     return sorted(order, key=score)
 
 
-def select_artifacts(
-    candidates: Sequence[str | Path], *, by: str, key: str | None, out: str | Path
-) -> str:
-    """Select among candidate artifacts and write the winner to ``out``; return its method."""
-    if not candidates:
-        raise MethodError("select: at least one candidate artifact is needed")
-    loaded = [load_sampler(c) for c in candidates]
-    ranking = rank_loaded(loaded, by)
-    best = loaded[ranking[0]]
-    meta = best.metadata  # type: ignore[attr-defined]
+def selection_record(
+    metadata: Sequence[Mapping[str, Any]], ranking: Sequence[int], by: str
+) -> dict[str, Any]:
+    """The ``diagnostics.selection`` block: the rule, the chosen method and the ranking.
+
+    ``metadata`` holds each candidate's artifact metadata in candidate order and ``ranking``
+    their indices from best to worst (as :func:`rank_loaded` gives them).
+
+    >>> metas = [{"sampler": {"method": m, "aic": a}, "key": k, "content_hash": "sha256:" + k}
+    ...          for m, a, k in [("gamma", 10.5, "k1"), ("normal", 9.0, "k2")]]
+    >>> rec = selection_record(metas, [1, 0], "aic")
+    >>> rec["chosen"], [row["method"] for row in rec["ranking"]]
+    ('normal', ['normal', 'gamma'])
+    """
     table = []
     for rank, i in enumerate(ranking, start=1):
-        m = loaded[i].metadata  # type: ignore[attr-defined]
+        m = metadata[i]
         table.append(
             {
                 "rank": rank,
@@ -69,26 +73,10 @@ def select_artifacts(
                 "loglik": m["sampler"].get("loglik"),
             }
         )
-    diagnostics = dict(meta.get("diagnostics") or {})
-    diagnostics["selection"] = {
+    best = metadata[ranking[0]]
+    return {
         "rule": by,
-        "chosen": meta["sampler"]["method"],
-        "chosen_key": meta.get("key"),
+        "chosen": best["sampler"]["method"],
+        "chosen_key": best.get("key"),
         "ranking": table,
     }
-    provenance = {
-        k: v
-        for k, v in (meta.get("provenance") or {}).items()
-        if k not in ("created_at", "versions")
-    }
-    provenance["selected_from"] = str(candidates[ranking[0]])
-    write_sampler(
-        best,
-        out,
-        fingerprint=meta.get("fingerprint"),
-        key=key,
-        data=meta.get("data"),
-        diagnostics=diagnostics,
-        provenance=provenance,
-    )
-    return str(meta["sampler"]["method"])

@@ -1,4 +1,12 @@
-"""The data's own (optionally weighted) empirical distribution."""
+"""The data's own (optionally weighted) empirical distribution.
+
+Frequency weights behave exactly like repeated rows: the step CDF is the cumulative sum of the
+weights (exact for integer weights) divided once by their total, so the integer weights
+``[2, 1]`` give bit for bit the CDF, quantiles and moments' atoms of the rows ``[a, a, b]``, and
+a level the CDF reaches exactly (``0.8`` for 8 of 10 rows) selects that row, never the next
+(:mod:`~samplewright.distributions.steps`). The artifact payload stores the weights as given
+(rows of weight 0 dropped), so a loaded sampler rebuilds the same numbers.
+"""
 
 from __future__ import annotations
 
@@ -19,6 +27,7 @@ class EmpiricalSampler(Sampler):
 
     Weights are frequency weights (:func:`~samplewright.core.checks.check_sample`: rows of
     weight 0 are dropped). Draws pick rows: uniformly, or by the weighted step CDF.
+    ``weights`` holds the normalised shares (summing to 1), in the order of ``values``.
 
     >>> s = EmpiricalSampler([3.0, 1.0, 2.0, 2.0])
     >>> s.cdf([1.0, 1.5, 2.0, 3.0]).tolist()
@@ -42,20 +51,25 @@ class EmpiricalSampler(Sampler):
         order = np.argsort(x, kind="stable")
         self.values = x[order]
         self.weights: np.ndarray | None = None
+        self._frequencies: np.ndarray | None = None
         if sample.weights is None:
             self._cum = np.arange(1, x.size + 1, dtype=np.float64) / x.size
-        else:  # normalised by the sum in the given order (the sum's rounding depends on it)
-            self._set_weights(sample.weights[order] / sample.weights.sum())
+        else:
+            self._set_weights(sample.weights[order])
         super().__init__(
             method=method,
             params={"n": int(x.size), "weighted": sample.weights is not None},
             diagnostics=diagnostics,
         )
 
-    def _set_weights(self, normalised: np.ndarray) -> None:
-        self.weights = normalised
-        self._cum = np.cumsum(normalised)
-        self._cum[-1] = 1.0
+    def _set_weights(self, frequencies: np.ndarray) -> None:
+        """Weights in the order of ``values``: the cumulative weights over their total (exact
+        for integer weights, as for repeated rows), and the normalised shares."""
+        self._frequencies = frequencies
+        running = np.cumsum(frequencies)
+        total = running[-1]
+        self._cum = running / total
+        self.weights = frequencies / total
 
     def _probs(self) -> np.ndarray:
         return (
@@ -91,16 +105,11 @@ class EmpiricalSampler(Sampler):
 
     @classmethod
     def from_payload(cls, payload: dict[str, np.ndarray], described: dict[str, Any]) -> Sampler:
-        sampler = cls(payload["value"], payload.get("weight"), method=described["method"])
-        if sampler.weights is not None:
-            # The stored weights are already normalised; dividing by their sum again can move
-            # them by an ulp, which would change the CDF and the content hash on a rewrite.
-            order = np.argsort(np.asarray(payload["value"], dtype=np.float64), kind="stable")
-            sampler._set_weights(np.asarray(payload["weight"], dtype=np.float64).ravel()[order])
-        return sampler
+        # the stored weights are the frequency weights: the same cumulative sums as at the fit
+        return cls(payload["value"], payload.get("weight"), method=described["method"])
 
     def payload(self) -> dict[str, np.ndarray]:
         cols = {"value": self.values}
-        if self.weights is not None:
-            cols["weight"] = self.weights
+        if self._frequencies is not None:
+            cols["weight"] = self._frequencies
         return cols

@@ -3,6 +3,12 @@
 It never draws a count that was not observed. Draws, like those of
 :class:`~samplewright.distributions.empirical.EmpiricalSampler`, are float64 holding whole
 numbers. Tabulating counts is in :mod:`samplewright.fitting.counts`.
+
+``quantile(u)`` is ``inf{k : F(k) >= u}``; a level within
+:data:`~samplewright.distributions.steps.LEVEL_TOLERANCE` (1e-12) above a cumulative share
+selects that count (``0.8`` is the 4th of 5 equally likely counts, even though the running sum
+of the shares stores it as ``0.7999999999999999``). Integer frequency weights give exactly the
+shares of repeated counts (:func:`~samplewright.fitting.counts.tabulate`).
 """
 
 from __future__ import annotations

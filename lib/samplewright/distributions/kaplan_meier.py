@@ -7,6 +7,12 @@ the largest value was censored some survival is left after it; ``tail`` says whe
 ``"exponential"`` (beyond the largest value ``S`` continues as
 ``S_last * exp(-tail_rate * (t - last_value))``). Estimating it is in
 :mod:`samplewright.fitting.kaplan_meier`.
+
+``quantile(u)`` is the generalised inverse ``inf{t : F(t) >= u}`` of the product-limit CDF. ``S``
+is a product of factors computed in floating point, so a level that equals ``F(t_j)`` in exact
+arithmetic may differ from the stored value by a few roundings; levels within
+:data:`~samplewright.distributions.steps.LEVEL_TOLERANCE` (1e-12) above a step select that step's
+time, so quantiles at the estimate's own levels are those of the exact product-limit estimate.
 """
 
 from __future__ import annotations
@@ -18,7 +24,7 @@ import numpy as np
 from samplewright.core.errors import MethodError
 from samplewright.distributions.base import Sampler, check_probabilities
 from samplewright.distributions.choices import TAIL_RULES, TailRule
-from samplewright.distributions.steps import step_cdf, step_index, step_mass
+from samplewright.distributions.steps import LEVEL_TOLERANCE, step_cdf, step_index, step_mass
 
 __all__ = ["KaplanMeierSampler"]
 
@@ -113,7 +119,7 @@ class KaplanMeierSampler(Sampler):
         out = self.time[step_index(self._cdf, uu)]
         if self._has_tail:
             assert self.tail_rate is not None
-            beyond = uu > self._cdf[-1]
+            beyond = uu > self._cdf[-1] + LEVEL_TOLERANCE
             with np.errstate(divide="ignore"):
                 gap = np.log(self._tail_mass) - np.log1p(-np.where(beyond, uu, 0.0))
             tail = self.last_value + np.maximum(gap, 0.0) / self.tail_rate

@@ -7,9 +7,12 @@ from typing import Any
 import numpy as np
 
 from samplewright.core.errors import KnotsError
-from samplewright.distributions.base import Sampler, check_probabilities
+from samplewright.distributions.base import Sampler, Size, check_probabilities
 
 __all__ = ["PiecewiseSampler", "from_knots"]
+
+_BLOCK = 1 << 16  # draws transformed per block (stays in cache with its gathered rows)
+_BUCKETS_PER_KNOT = 2  # guide-table buckets per segment of unequally spaced knots
 
 
 class PiecewiseSampler(Sampler):
@@ -39,6 +42,7 @@ class PiecewiseSampler(Sampler):
             "n_atoms": int(np.sum((np.diff(self.x) == 0) & (dp > 0))),
         }
         super().__init__(method=method, params=params)
+        self._tables: tuple[np.ndarray, ...] | None = None  # built at the first quantile
 
     def cdf(self, q: Any) -> np.ndarray:
         q = np.asarray(q, dtype=np.float64)
@@ -54,21 +58,100 @@ class PiecewiseSampler(Sampler):
 
     def quantile(self, u: Any) -> np.ndarray:
         u = check_probabilities(u)
-        x, p = self.x, self.p
+        return self._blocks(np.array(u, dtype=np.float64, copy=True))
+
+    def _draw_native(self, size: Size, gen: np.random.Generator) -> np.ndarray:
+        """``quantile(gen.random(size))`` without the check (the Generator's uniforms lie in
+        [0, 1)), transformed in place; the uniforms come from one call, as in the base class."""
+        return self._blocks(gen.random(size))
+
+    def _blocks(self, u: np.ndarray) -> np.ndarray:
+        """``Q(u)`` block by block (each block's gathered rows stay in cache); ``u`` is reused."""
+        flat = u.reshape(-1)
+        out = np.empty(flat.size, dtype=np.float64)
+        for start in range(0, flat.size, _BLOCK):
+            self._quantile_into(flat[start : start + _BLOCK], out[start : start + _BLOCK])
+        return out.reshape(u.shape)
+
+    def _lookup_tables(self) -> tuple[np.ndarray, ...]:
+        """Per-segment rows gathered in one cache line, and the guide table of unequal knots.
+
+        Equal spacing: rows ``(x[j], x[j+1] - x[j])``. Otherwise rows
+        ``(p[k-1], p[k] - p[k-1], x[k-1], x[k] - x[k-1])`` for segments ``k = 1 .. m`` and a guide
+        table (Chen & Asau, 1974) over ``K = 2 m`` buckets. With ``c_i = trunc(p[i] K)``, bucket
+        ``b`` starts at knot ``g = #{i : c_i < b}`` and holds ``#{i : c_i = b}`` knots; its row is
+        ``(p[g], p[g+1], g, that count)``. For ``trunc(u K) = b`` the first knot with ``p >= u``
+        is ``g`` plus the number of the bucket's own knots below ``u``: the product is monotone
+        in ``u``, so knots of earlier buckets lie below ``u`` and those of later ones above. With
+        two buckets a segment, few buckets hold more than two knots (those use a binary search).
+        """
+        if self._tables is None:
+            x, p = self.x, self.p
+            dx = np.diff(x)
+            if self._equal:
+                self._tables = (np.stack([x[:-1], dx], axis=1),)
+            else:
+                m = x.size - 1
+                dp = np.diff(p)
+                # a flat segment is only reached by u = 0, which is answered separately
+                dp_safe = np.where(dp > 0, dp, 1.0)
+                rows = np.stack([p[:-1], dp_safe, x[:-1], dx], axis=1)
+                n_buckets = _BUCKETS_PER_KNOT * m
+                cells = (p * float(n_buckets)).astype(np.intp)
+                first = np.searchsorted(cells, np.arange(n_buckets + 2), side="left")
+                lead = first[:-1]
+                # bucket rows: p of the bucket's first two knots, the first knot, their count
+                guide = np.stack(
+                    [
+                        p[np.minimum(lead, m)],
+                        p[np.minimum(lead + 1, m)],
+                        lead.astype(np.float64),
+                        np.diff(first).astype(np.float64),
+                    ],
+                    axis=1,
+                )
+                self._tables = (rows, guide)
+        return self._tables
+
+    def _quantile_into(self, u: np.ndarray, out: np.ndarray) -> None:
+        """Write ``Q(u)`` of checked 1-d probabilities ``u`` into ``out``; ``u`` is overwritten.
+
+        Equal to the textbook form ``x0 + (x1 - x0) * (u - p0) / (p1 - p0)`` on the segment of
+        the first knot with ``p >= u`` (bit for bit: the same operations in the same order).
+        """
+        tables = self._lookup_tables()
+        m = self.x.size - 1
         if self._equal:
-            m = x.size - 1
-            t = u * m
-            j = np.minimum(np.floor(t), m - 1).astype(np.intp)
-            x0 = x[j]
-            return x0 + (x[j + 1] - x0) * (t - j)
-        k = np.searchsorted(p, u, side="left")  # first knot with p >= u
-        k = np.clip(k, 1, x.size - 1)
-        x0, x1, p0, p1 = x[k - 1], x[k], p[k - 1], p[k]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            frac = np.where(p1 > p0, (u - p0) / (p1 - p0), 1.0)
-        out = x0 + (x1 - x0) * frac
-        # u == 0 maps to the lower end of the support (the last knot with p == 0).
-        return np.where(u <= 0, self.support[0], out)
+            # segment j = floor(u m) (truncation: u >= 0), blend t - j
+            u *= float(m)
+            j = u.astype(np.intp)
+            np.minimum(j, m - 1, out=j)
+            u -= j
+            row = np.take(tables[0], j, axis=0)
+            np.multiply(row[:, 1], u, out=out)
+            out += row[:, 0]
+            return
+        rows, guide = tables
+        p = self.p
+        b = (u * float(_BUCKETS_PER_KNOT * m)).astype(np.intp)
+        bucket = np.take(guide, b, axis=0)
+        k = bucket[:, 2].astype(np.intp)
+        # the bucket's own knots, at most two of them; fuller buckets: search the whole table
+        k += bucket[:, 0] < u
+        k += bucket[:, 1] < u
+        full = np.flatnonzero(bucket[:, 3] > 2.0)
+        if full.size:
+            k[full] = np.searchsorted(p, u[full], side="left")
+        at_zero = np.flatnonzero(k == 0)  # u = 0: the lower end of the support
+        np.maximum(k, 1, out=k)
+        k -= 1
+        row = np.take(rows, k, axis=0)
+        u -= row[:, 0]
+        u /= row[:, 1]
+        np.multiply(row[:, 3], u, out=out)
+        out += row[:, 2]
+        if at_zero.size:
+            out[at_zero] = self.support[0]
 
     def pdf(self, q: Any) -> np.ndarray:
         """Density of the continuous part (atoms excluded; see :meth:`pmf`)."""

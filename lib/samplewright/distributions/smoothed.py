@@ -7,15 +7,23 @@ distributions, one per observation with its (normalised) weight, all with standa
 
 Where the kernels live (``positive``):
 
-- ``"log"``: smooth ``log x`` and draw ``exp(log x_i + h Z)``: a mixture of lognormals, so
-  draws are > 0 and the spread scales with the value.
+- ``"log"``: smooth ``log x`` and draw ``exp(log x_i + log_shift + h Z)``: a mixture of
+  lognormals, so draws are > 0 and the spread scales with the value. With ``log_shift = 0`` each
+  kernel's *median* is its observation and its mean ``x_i exp(h^2 / 2)``, which raises the
+  mixture's mean by the factor ``exp(h^2 / 2)``; with ``log_shift = -h^2 / 2`` (what ``fit``
+  chooses by default, :mod:`samplewright.fitting.smoothed`) each kernel's *mean* is its
+  observation, so the mixture's mean is exactly the (weighted) sample mean.
 - ``"reflect"``: draw ``|x_i + h Z|`` (the kernel mass below 0 reflected about 0); needs
   every value >= 0. Density ``sum w_i (phi((x - x_i)/h) + phi((x + x_i)/h)) / h`` on x >= 0.
 - ``"none"``: plain kernel on the data scale (draws can fall below the smallest value,
   negative ones included).
 
 ``cdf`` is the mixture of normal CDFs, ``quantile`` its numerical inverse (to about 1e-12 in
-probability), ``mean`` and ``var`` are exact for the mixture. ``cdf`` and ``pdf`` skip kernels
+probability), ``mean`` and ``var`` are exact for the mixture: with shares ``w_i`` and ``m`` the
+sample mean, on the log scale ``mean = exp(log_shift + h^2/2) sum w_i x_i`` and
+``E[X^2] = exp(2 log_shift + 2 h^2) sum w_i x_i^2``; with ``log_shift = -h^2/2`` the variance is
+the sample variance (divisor n) plus ``(exp(h^2) - 1) sum w_i x_i^2``. On the data scale
+(``"none"``) the variance is the sample variance plus ``h^2``. ``cdf`` and ``pdf`` skip kernels
 more than 9 bandwidths from the point (their share is below 1.2e-19 each), so a density deep in
 a gap between observations may read 0; each value costs at most O(n). The native draw does not
 invert the CDF: it picks indices and adds noise, so it is fast but not the inverse transform of
@@ -65,6 +73,7 @@ class SmoothedSampler(Sampler):
         bandwidth: float,
         positive: KernelScale = "none",
         bandwidth_rule: BandwidthRule | Literal["fixed"] = "fixed",
+        log_shift: float = 0.0,
         method: str = "smoothed",
         diagnostics: Mapping[str, Any] | None = None,
     ) -> None:
@@ -89,6 +98,12 @@ class SmoothedSampler(Sampler):
             raise MethodError(
                 f"option 'bandwidth' of smoothed: expected a positive number, found {bandwidth!r}"
             )
+        shift = float(log_shift)
+        if not np.isfinite(shift) or (shift != 0.0 and positive != "log"):
+            raise MethodError(
+                f"log_shift: expected 0 unless positive is 'log', or a finite number, found "
+                f"{log_shift!r} with positive {positive!r}"
+            )
         order = np.argsort(x, kind="stable")
         self.values = x[order]
         self.weights: np.ndarray | None = None
@@ -100,12 +115,14 @@ class SmoothedSampler(Sampler):
             self._set_weights(w[order] / np.sum(w))
         self.bandwidth = h
         self.positive: KernelScale = positive
-        self._c = np.log(self.values) if positive == "log" else self.values
+        self.log_shift = shift
+        self._c = np.log(self.values) + shift if positive == "log" else self.values
         self._table: tuple[np.ndarray, np.ndarray] | None = None
         params = {
             "bandwidth": h,
             "bandwidth_rule": bandwidth_rule,
             "positive": positive,
+            "log_shift": shift,
             "n": int(x.size),
             "weighted": sample.weights is not None,
         }
@@ -270,8 +287,8 @@ class SmoothedSampler(Sampler):
     @property
     def mean(self) -> float:
         h, c, w = self.bandwidth, self._c, self._w
-        if self.positive == "log":
-            return float(np.exp(0.5 * h * h) * np.dot(w, self.values))
+        if self.positive == "log":  # exp(log_shift + h^2/2) is exactly 1 for the mean-keeping shift
+            return float(np.exp(self.log_shift + 0.5 * h * h) * np.dot(w, self.values))
         if self.positive == "reflect":  # E|N(c, h^2)| = c (1 - 2 Phi(-c/h)) + 2 h phi(c/h)
             z = c / h
             fold = c * (1.0 - 2.0 * special.ndtr(-z)) + 2.0 * h * np.exp(-0.5 * z * z) / _SQRT2PI
@@ -281,10 +298,11 @@ class SmoothedSampler(Sampler):
     @property
     def var(self) -> float:
         h, w = self.bandwidth, self._w
-        if self.positive == "log":  # E[X^2] = exp(2 h^2) sum w x^2
+        if self.positive == "log":  # E[X^2] = exp(2 log_shift + 2 h^2) sum w x^2
             m = float(np.dot(w, self.values))
             m2 = float(np.dot(w, self.values**2))
-            return float(np.exp(h * h) * (np.exp(h * h) * m2 - m * m))
+            g = np.exp(2.0 * self.log_shift + h * h)
+            return float(g * (np.exp(h * h) * m2 - m * m))
         if self.positive == "reflect":
             return float(max(np.dot(w, self._c**2) + h * h - self.mean**2, 0.0))
         m = float(np.dot(w, self._c))
@@ -311,6 +329,7 @@ class SmoothedSampler(Sampler):
             bandwidth=p["bandwidth"],
             positive=p["positive"],
             bandwidth_rule=p["bandwidth_rule"],
+            log_shift=p.get("log_shift", 0.0),
             method=described["method"],
         )
         if weighted:  # stored weights are normalised already: keep them bit for bit

@@ -43,6 +43,7 @@ def fit(
     *,
     weights: Any = None,
     censored: Any = None,
+    truncation: Any = None,
     **options: Any,
 ) -> Sampler:
     """Fit a sampler to observed values.
@@ -54,12 +55,22 @@ def fit(
     weights : optional non-negative frequency weights, one per value (rows of weight 0 are
         dropped).
     censored : optional flags (booleans or 0/1), True where the value is right-censored.
+    truncation : optional lower truncation point(s): one number or one per value (a deductible,
+        a delayed entry; ``-inf`` for none). Values are then known only because they exceeded
+        their point, and the likelihood is divided by the probability beyond it (see
+        :func:`samplewright.fit_interval` for interval-censored and grouped data).
     **options : method options (e.g. ``loc`` for positive families).
 
     >>> s = fit([2.0, 4.0, 9.0], method="exponential")
     >>> s.method, s.params["scale"], round(s.loglik, 4)
     ('exponential', 5.0, -7.8283)
     """
+    if truncation is not None:
+        from samplewright.fitting.interval_api import fit_truncated
+
+        return fit_truncated(
+            values, method, censored=censored, truncation=truncation, weights=weights, **options
+        )
     spec = check_options(method, options)
     sample = check_sample_for(spec, values, weights, censored)
     sampler = fitter(spec)(sample, method, **options)

@@ -25,9 +25,17 @@ from samplewright.distributions.choices import BANDWIDTH_RULES, TAIL_RULES
 
 __all__ = [
     "CATALOG",
+    "COUNT_FAMILIES",
+    "CountFamily",
     "CRITERIA",
     "Criterion",
+    "INTEGER_READINGS",
+    "IntegerReading",
     "KINDS",
+    "LOG_CENTRES",
+    "LogCentre",
+    "MIXTURE_FAMILIES",
+    "MixtureFamily",
     "METHODS",
     "METHOD_OPTIONS",
     "MethodGroup",
@@ -47,6 +55,12 @@ __all__ = [
 # Information criterion that ranks candidate families.
 Criterion = Literal["aic", "bic"]
 CRITERIA: tuple[Criterion, ...] = get_args(Criterion)
+# How auto reads whole-number data: by the rule of samplewright.check.auto, or as stated.
+IntegerReading = Literal["detect", "counts", "measurements"]
+INTEGER_READINGS: tuple[IntegerReading, ...] = get_args(IntegerReading)
+# What a log-scale smoothed kernel keeps at its observation: its mean (default) or its median.
+LogCentre = Literal["mean", "median"]
+LOG_CENTRES: tuple[LogCentre, ...] = get_args(LogCentre)
 # Where smoothed kernels live; "auto" picks log, reflect or none from the data.
 PositiveMode = Literal["auto", "log", "reflect", "none"]
 POSITIVE_MODES: tuple[PositiveMode, ...] = get_args(PositiveMode)
@@ -56,6 +70,13 @@ SPLICED_BODIES: tuple[SplicedBody, ...] = get_args(SplicedBody)
 # How a spliced sampler's threshold was set (recorded in its diagnostics).
 ThresholdRule = Literal["threshold", "threshold_quantile", "stability", "fallback"]
 THRESHOLD_RULES: tuple[ThresholdRule, ...] = get_args(ThresholdRule)
+
+# Component family of a finite mixture.
+MixtureFamily = Literal["normal", "lognormal", "gamma", "weibull"]
+MIXTURE_FAMILIES: tuple[MixtureFamily, ...] = get_args(MixtureFamily)
+# Count family under a zero-inflation.
+CountFamily = Literal["poisson", "negative_binomial"]
+COUNT_FAMILIES: tuple[CountFamily, ...] = get_args(CountFamily)
 
 # The JSON types an option's value may have (as JSON Schema names them).
 ValueType = Literal["number", "integer", "string", "array"]
@@ -103,6 +124,12 @@ class MethodSpec:
     def option_names(self) -> frozenset[str]:
         """The names of the options it takes."""
         return frozenset(o.name for o in self.options)
+
+    @property
+    def counts(self) -> bool:
+        """Whether it is a family of counts (a probability mass on the integers): the families
+        that carry the count diagnostics. Its likelihood is not comparable with a density's."""
+        return self.group == "family" and self.diagnostics == _DISPERSION
 
 
 # --- options shared by several methods ------------------------------------------------------
@@ -228,6 +255,13 @@ _METHODS = (
                 ("string",),
                 POSITIVE_MODES,
             ),
+            OptionSpec(
+                "log_centre",
+                "on the log scale, what each kernel keeps at its observation: 'mean' (default: "
+                "the sampler keeps the sample mean) or 'median' (mean raised by exp(h^2/2))",
+                ("string",),
+                LOG_CENTRES,
+            ),
         ),
     ),
     MethodSpec(
@@ -272,9 +306,100 @@ _METHODS = (
                 ("integer",),
             ),
             OptionSpec(
-                "seed", "seed of the bootstrap stream, an int >= 0 (default 0)", ("integer",)
+                "seed",
+                "seed of the bootstrap stream, an int >= 0 (default: derived from the data; a "
+                "pipeline passes one from its root seed and the dataset and label)",
+                ("integer",),
+            ),
+            OptionSpec(
+                "integers",
+                "whole numbers >= 0 read as: 'detect' (default: counts when dense on the "
+                "integers, else measurements), 'counts' or 'measurements'",
+                ("string",),
+                INTEGER_READINGS,
             ),
         ),
+    ),
+    MethodSpec(
+        "mixture",
+        "extension",
+        "a finite mixture of one family fitted by EM, the number of components chosen by BIC",
+        "samplewright.fitting.composite:fit_mixture_sample",
+        "mixture",
+        6,
+        (
+            OptionSpec(
+                "family",
+                "component family: lognormal, gamma, weibull or normal (default: lognormal when "
+                "every value is > 0, else normal)",
+                ("string",),
+                MIXTURE_FAMILIES,
+            ),
+            OptionSpec(
+                "max_components",
+                "most components BIC may choose, an int >= 1 (default 3)",
+                ("integer",),
+            ),
+            OptionSpec(
+                "n_starts",
+                "EM starts per number of components, an int >= 1 (default 5)",
+                ("integer",),
+            ),
+            OptionSpec(
+                "seed", "seed of the random EM starts, an int >= 0 (default 0)", ("integer",)
+            ),
+        ),
+    ),
+    MethodSpec(
+        "hurdle",
+        "extension",
+        "a point mass at one value (default 0) plus a continuous family fitted to the other values",
+        "samplewright.fitting.composite:fit_hurdle_sample",
+        "point_mass",
+        3,
+        (
+            OptionSpec("at", "where the point mass sits, a number (default 0)", ("number",)),
+            OptionSpec(
+                "body",
+                "continuous family fitted to the other values (default lognormal)",
+                ("string",),
+            ),
+        ),
+    ),
+    MethodSpec(
+        "zero_inflated",
+        "extension",
+        "zero-inflated poisson or negative binomial counts (Lambert 1992)",
+        "samplewright.fitting.composite:fit_zero_inflated_sample",
+        "point_mass",
+        2,
+        (
+            OptionSpec(
+                "family",
+                "'poisson' (default) or 'negative_binomial'",
+                ("string",),
+                COUNT_FAMILIES,
+            ),
+        ),
+        diagnostics=_DISPERSION,
+    ),
+    MethodSpec(
+        "turnbull",
+        "extension",
+        "Turnbull's nonparametric estimate for interval-censored, grouped and truncated data; "
+        "mass spread evenly within each interval",
+        "samplewright.fitting.interval_api:fit_sample",
+        "piecewise",
+        1,
+        (
+            OptionSpec(
+                "tail",
+                "mass beyond the largest finite point: 'at_last' (default) or 'exponential'",
+                ("string",),
+                TAIL_RULES,
+            ),
+        ),
+        censoring=True,
     ),
 )
 
@@ -293,6 +418,8 @@ KINDS: dict[str, str] = {
     "metalog": "samplewright.distributions.metalog:MetalogSampler",
     "mixture": "samplewright.distributions.mixture:MixtureSampler",
     "point_mass": "samplewright.distributions.point_mass:PointMassSampler",
+    "ensemble": "samplewright.distributions.ensemble:EnsembleSampler",
+    "averaged": "samplewright.distributions.averaged:AveragedSampler",
 }
 # every method name, sorted
 METHODS: tuple[str, ...] = tuple(sorted(CATALOG))

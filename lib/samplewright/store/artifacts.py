@@ -12,8 +12,11 @@ Layout
   ``diagnostics``. It is independent of the Parquet writer, of the time and of the host, so the
   same fit on a laptop and on a cluster gives the same content hash. ``record_hash`` covers the
   whole JSON document (provenance included) plus the payload, so any edit is detected.
-* Writing goes to a temporary file in the target folder, is fsynced, then renamed over the final
-  name: a killed job never leaves a half-written artifact under a final name.
+* The metadata is stored once, as the file's key-value metadata (see :mod:`.tables`); a file
+  that also carries it in a stored Arrow schema is refused unless both copies are equal.
+* Writing is atomic (:mod:`.atomic`): a killed job never leaves a half-written artifact under a
+  final name.
+* The JSON texts hashed are canonical JSON (:mod:`samplewright.core.canonical`).
 
 No pickle is used anywhere: loading an artifact cannot run code.
 """
@@ -22,21 +25,19 @@ from __future__ import annotations
 
 import datetime as _dt
 import hashlib
-import json
-import os
 import platform
-import tempfile
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pyarrow as pa
-import pyarrow.parquet as pq
 
+from samplewright.core.canonical import canonical_bytes, parse_json
 from samplewright.core.errors import ArtifactError, IntegrityError, SamplewrightError
 from samplewright.core.versions import ARTIFACT_FORMAT_VERSION
-from samplewright.distributions.base import SAMPLER_KINDS, Sampler
+from samplewright.distributions.base import Sampler
+from samplewright.store.tables import read_table, write_table
 
 __all__ = [
     "FORMAT_VERSION",
@@ -53,10 +54,6 @@ METADATA_KEY = b"samplewright"
 _HASHED = ("format_version", "sampler", "fingerprint", "key", "data", "diagnostics")
 
 
-def _canonical_json(obj: Any) -> bytes:
-    return json.dumps(obj, sort_keys=True, separators=(",", ":"), allow_nan=False).encode()
-
-
 def _hash_payload(h: Any, payload: Mapping[str, np.ndarray]) -> None:
     for name, arr in payload.items():
         canon = np.ascontiguousarray(np.asarray(arr, dtype=np.float64), dtype="<f8")
@@ -68,14 +65,14 @@ def content_hash(payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> 
     """sha256 of the canonical content (see module docstring)."""
     h = hashlib.sha256(b"samplewright-content-v1")
     _hash_payload(h, payload)
-    h.update(_canonical_json({k: meta.get(k) for k in _HASHED}))
+    h.update(canonical_bytes({k: meta.get(k) for k in _HASHED}))
     return "sha256:" + h.hexdigest()
 
 
 def _record_hash(payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> str:
     h = hashlib.sha256(b"samplewright-record-v1")
     _hash_payload(h, payload)
-    h.update(_canonical_json({k: v for k, v in meta.items() if k != "record_hash"}))
+    h.update(canonical_bytes({k: v for k, v in meta.items() if k != "record_hash"}))
     return "sha256:" + h.hexdigest()
 
 
@@ -125,60 +122,38 @@ def write_sampler(
         "data": dict(data or {}),
         "diagnostics": dict(diagnostics or {}),
     }
-    meta["content_hash"] = content_hash(payload, meta)
-    meta["provenance"] = {
-        **dict(provenance or {}),
-        "created_at": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
-        "versions": _versions(),
-    }
-    meta["record_hash"] = _record_hash(payload, meta)
+    try:
+        meta["content_hash"] = content_hash(payload, meta)
+        meta["provenance"] = {
+            **dict(provenance or {}),
+            "created_at": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
+            "versions": _versions(),
+        }
+        meta["record_hash"] = _record_hash(payload, meta)
+        text = canonical_bytes(meta)
+    except (TypeError, ValueError) as exc:
+        raise ArtifactError(f"{path}: the sampler's metadata cannot be stored ({exc})") from None
     table = pa.table({k: pa.array(np.asarray(v, dtype=np.float64)) for k, v in payload.items()})
-    table = table.replace_schema_metadata({METADATA_KEY: _canonical_json(meta)})
-    atomic_write(
-        path, lambda tmp: pq.write_table(table, tmp, use_dictionary=False, compression="zstd")
-    )
+    write_table(path, table, {METADATA_KEY: text}, compression="zstd")
     return meta
-
-
-def atomic_write(path: Path, writer: Any) -> None:
-    """Call ``writer(tmp_path)``, fsync, and rename onto ``path``; remove the temp on failure."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    os.close(fd)
-    try:
-        writer(tmp)
-        with open(tmp, "rb+") as fh:
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    try:
-        dfd = os.open(path.parent, os.O_RDONLY)
-    except OSError:  # pragma: no cover - some filesystems refuse opening folders
-        return
-    try:
-        os.fsync(dfd)
-    except OSError:  # pragma: no cover
-        pass
-    finally:
-        os.close(dfd)
 
 
 def _read(path: Path) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
     if not path.is_file():
         raise ArtifactError(f"{path}: artifact not found")
     try:
-        table = pq.read_table(path)
+        table, raw = read_table(path, METADATA_KEY)
+    except IntegrityError:
+        raise
     except Exception as exc:
-        raise ArtifactError(f"{path}: not a readable Parquet file ({exc})") from None
-    raw = (table.schema.metadata or {}).get(METADATA_KEY)
+        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise ArtifactError(f"{path}: not a readable Parquet file ({reason})") from None
     if raw is None:
         raise ArtifactError(f"{path}: no samplewright metadata (not a samplewright artifact)")
     try:
-        meta = json.loads(raw)
+        meta = parse_json(raw)
     except ValueError as exc:
-        raise ArtifactError(f"{path}: samplewright metadata is not valid JSON ({exc})") from None
+        raise ArtifactError(f"{path}: samplewright metadata is unusable: {exc}") from None
     if not isinstance(meta, dict) or meta.get("format") != "samplewright-sampler":
         raise ArtifactError(f"{path}: metadata does not describe a samplewright sampler")
     if meta.get("format_version") != FORMAT_VERSION:
@@ -186,10 +161,18 @@ def _read(path: Path) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
             f"{path}: format_version {meta.get('format_version')!r} is not supported "
             f"(this samplewright reads {FORMAT_VERSION})"
         )
-    payload = {
-        name: table.column(name).to_numpy().astype(np.float64, copy=False)
-        for name in table.column_names
-    }
+    if not isinstance(meta.get("sampler"), dict):
+        raise ArtifactError(f"{path}: metadata field 'sampler' is not a JSON object")
+    names = table.column_names
+    if len(set(names)) != len(names):
+        raise ArtifactError(f"{path}: payload column names repeat ({', '.join(names)})")
+    payload = {}
+    for i, field in enumerate(table.schema):
+        if not pa.types.is_float64(field.type):
+            raise ArtifactError(
+                f"{path}: payload column {field.name!r} is {field.type}, expected double"
+            )
+        payload[field.name] = table.column(i).to_numpy().astype(np.float64, copy=False)
     return payload, meta
 
 
@@ -230,17 +213,16 @@ def verify_artifact(path: str | Path) -> dict[str, Any]:
 def _build(path: Path, payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> Sampler:
     described = meta.get("sampler") or {}
     kind = described.get("kind")
-    from samplewright.fitting.registry import load_extensions
+    from samplewright.fitting.registry import sampler_class
 
-    load_extensions()  # extension modules define their sampler kinds
-    cls = SAMPLER_KINDS.get(str(kind))
+    cls = sampler_class(str(kind))  # imports that kind's module only
     if cls is None:
         raise ArtifactError(f"{path}: unknown sampler kind {kind!r} (newer samplewright?)")
     try:
         sampler = cls.from_payload(dict(payload), dict(described))
-    except (KeyError, TypeError, SamplewrightError) as exc:
+    except (KeyError, TypeError, ValueError, IndexError, SamplewrightError) as exc:
         raise ArtifactError(f"{path}: cannot rebuild the {kind!r} sampler ({exc})") from None
-    sampler.metadata = dict(meta)  # type: ignore[attr-defined]
+    sampler.metadata = dict(meta)
     return sampler
 
 

@@ -2,12 +2,13 @@
 
 In a pipeline, only the snapshot rule reads the raw data file; every rule below reads the
 snapshot. The snapshot is a Parquet file with columns ``value`` (and ``weight``, ``censor`` when
-used) plus metadata key ``samplewright-snapshot`` recording where the values came from.
+used) plus metadata key ``samplewright-snapshot`` (canonical JSON, held once: see
+:mod:`.tables`) recording where the values came from.
 """
 
 from __future__ import annotations
 
-import json
+from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
 
@@ -15,10 +16,11 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from samplewright.core.errors import InputDataError
+from samplewright.core.canonical import canonical_bytes, parse_json
+from samplewright.core.errors import InputDataError, IntegrityError
 from samplewright.intake.columns import ColumnData, Policy, read_column
-from samplewright.store.artifacts import atomic_write
 from samplewright.store.fingerprints import fingerprint_column
+from samplewright.store.tables import read_key, write_table
 
 __all__ = ["SNAPSHOT_KEY", "read_data", "snapshot_info", "write_snapshot"]
 
@@ -41,8 +43,7 @@ def write_snapshot(data: ColumnData, path: str | Path) -> dict[str, Any]:
         "n_rows_read": data.n_rows_read,
         "dropped": data.dropped,
     }
-    table = pa.table(cols).replace_schema_metadata({SNAPSHOT_KEY: json.dumps(info).encode()})
-    atomic_write(Path(path), lambda tmp: pq.write_table(table, tmp, use_dictionary=False))
+    write_table(path, pa.table(cols), {SNAPSHOT_KEY: canonical_bytes(info)})
     return info
 
 
@@ -52,11 +53,20 @@ def snapshot_info(path: str | Path) -> dict[str, Any] | None:
     if path.suffix.lower() not in (".parquet", ".pq") or not path.is_file():
         return None
     try:
-        meta = pq.read_schema(path).metadata or {}
+        raw = read_key(path, SNAPSHOT_KEY)
+    except IntegrityError:
+        raise
     except Exception:
+        return None  # not readable as Parquet: reading it as data gives the precise error
+    if raw is None:
         return None
-    raw = meta.get(SNAPSHOT_KEY)
-    return None if raw is None else json.loads(raw)
+    try:
+        info = parse_json(raw)
+    except ValueError as exc:
+        raise InputDataError(f"{path}: snapshot metadata is unusable: {exc}") from None
+    if not isinstance(info, dict):
+        raise InputDataError(f"{path}: snapshot metadata is not a JSON object")
+    return info
 
 
 def read_data(
@@ -68,9 +78,14 @@ def read_data(
     missing: Policy = "error",
     infinite: Policy = "error",
     min_rows: int = 1,
+    separator: str | None = None,
+    decimal: str = ".",
+    missing_markers: Iterable[str] = (),
+    encoding: str | None = None,
 ) -> tuple[ColumnData, dict[str, Any] | None]:
     """Read a data file or a snapshot. For a snapshot, ``column`` may be None (its roles are
-    fixed) and the original source is returned as the second element."""
+    fixed), the reading options do not apply, and the original source is returned as the second
+    element."""
     info = snapshot_info(path)
     if info is None:
         if column is None:
@@ -83,6 +98,10 @@ def read_data(
             missing=missing,
             infinite=infinite,
             min_rows=min_rows,
+            separator=separator,
+            decimal=decimal,
+            missing_markers=missing_markers,
+            encoding=encoding,
         ), None
     names = pq.read_schema(path).names
     data = read_column(

@@ -10,10 +10,36 @@ import numpy as np
 
 from samplewright.core.errors import MethodError
 
-__all__ = ["FAMILIES", "Family", "Params", "get_family", "register"]
+__all__ = [
+    "FAMILIES",
+    "Family",
+    "Params",
+    "get_family",
+    "half_line",
+    "real_line",
+    "register",
+    "unit_interval",
+]
 
 Params = dict[str, float]
 NativeDraw = Callable[[Params, int | tuple[int, ...], np.random.Generator], np.ndarray]
+# scipy keyword arguments -> the support of the standard (loc 0, scale 1) distribution
+StdSupport = Callable[[Mapping[str, Any]], tuple[float, float]]
+
+
+def real_line(kw: Mapping[str, Any]) -> tuple[float, float]:
+    """Standard support of a family on the whole real line."""
+    return -np.inf, np.inf
+
+
+def half_line(kw: Mapping[str, Any]) -> tuple[float, float]:
+    """Standard support of a family above its location (0 to infinity)."""
+    return 0.0, np.inf
+
+
+def unit_interval(kw: Mapping[str, Any]) -> tuple[float, float]:
+    """Standard support of a family on [0, 1]."""
+    return 0.0, 1.0
 
 
 class _Bound:
@@ -79,6 +105,9 @@ class Family:
     native_draw : callable, optional
         ``(params, size, generator) -> draws`` with numpy's own generator (faster than the
         inverse transform); None draws by ``ppf``.
+    std_support : callable
+        scipy's keyword arguments -> the support of the standard distribution (scipy's
+        ``_get_support``); :meth:`support` scales it exactly as scipy does.
     """
 
     name: str
@@ -88,6 +117,18 @@ class Family:
     scipy_dist: Any
     scipy_kwargs: Callable[[Params], dict[str, Any]]
     native_draw: NativeDraw | None = None
+    std_support: StdSupport = real_line
+
+    def support(self, params: Mapping[str, float]) -> tuple[float, float]:
+        """The support ``(lower, upper)`` for these parameters, with scipy's arithmetic.
+
+        Equal to ``frozen(params).support()`` for valid parameters (``a * scale + loc`` from
+        the standard support), without the cost of scipy's argument handling.
+        """
+        kw = self.scipy_kwargs(dict(params))
+        a, b = self.std_support(kw)
+        scale, loc = kw.get("scale", 1.0), kw.get("loc", 0.0)
+        return float(a * scale + loc), float(b * scale + loc)
 
     def frozen(self, params: Mapping[str, float]) -> Any:
         """The scipy frozen distribution for these parameters."""

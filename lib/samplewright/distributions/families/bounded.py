@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from scipy import stats
 
-from samplewright.distributions.families.base import Family, register
+from samplewright.distributions.families.base import Family, register, unit_interval
 
 __all__: list[str] = []
 
@@ -21,6 +21,7 @@ register(
         native_draw=lambda p, size, rng: (
             p["lower"] + (p["upper"] - p["lower"]) * rng.beta(p["alpha"], p["beta"], size)
         ),
+        std_support=unit_interval,
     )
 )
 register(
@@ -32,6 +33,7 @@ register(
         scipy_dist=stats.uniform,
         scipy_kwargs=lambda p: dict(loc=p["lower"], scale=p["upper"] - p["lower"]),
         native_draw=lambda p, size, rng: rng.uniform(p["lower"], p["upper"], size),
+        std_support=unit_interval,
     )
 )
 register(
@@ -47,5 +49,6 @@ register(
             scale=p["upper"] - p["lower"],
         ),
         native_draw=lambda p, size, rng: rng.triangular(p["lower"], p["mode"], p["upper"], size),
+        std_support=unit_interval,
     )
 )

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import stats
 
-from samplewright.distributions.families.base import Family, register
+from samplewright.distributions.families.base import Family, half_line, register
 
 __all__: list[str] = []
 
@@ -32,6 +32,7 @@ register(
         native_draw=lambda p, size, rng: (
             np.exp(rng.standard_normal(size) * p["sigma"] + p["mu"]) + p["loc"]
         ),
+        std_support=half_line,
     )
 )
 register(
@@ -43,6 +44,7 @@ register(
         scipy_dist=stats.expon,
         scipy_kwargs=lambda p: dict(loc=p["loc"], scale=p["scale"]),
         native_draw=lambda p, size, rng: rng.exponential(p["scale"], size) + p["loc"],
+        std_support=half_line,
     )
 )
 register(
@@ -54,6 +56,7 @@ register(
         scipy_dist=stats.gamma,
         scipy_kwargs=lambda p: dict(a=p["shape"], loc=p["loc"], scale=p["scale"]),
         native_draw=lambda p, size, rng: rng.gamma(p["shape"], p["scale"], size) + p["loc"],
+        std_support=half_line,
     )
 )
 register(
@@ -65,6 +68,7 @@ register(
         scipy_dist=stats.weibull_min,
         scipy_kwargs=lambda p: dict(c=p["shape"], loc=p["loc"], scale=p["scale"]),
         native_draw=lambda p, size, rng: p["scale"] * rng.weibull(p["shape"], size) + p["loc"],
+        std_support=half_line,
     )
 )
 register(
@@ -89,6 +93,7 @@ register(
         native_draw=lambda p, size, rng: (
             p["alpha"] * np.exp(rng.logistic(0.0, 1.0 / p["beta"], size)) + p["loc"]
         ),
+        std_support=half_line,
     )
 )
 register(
@@ -100,6 +105,7 @@ register(
         scipy_dist=stats.invgauss,
         scipy_kwargs=lambda p: dict(mu=p["mu"] / p["lambda"], loc=p["loc"], scale=p["lambda"]),
         native_draw=lambda p, size, rng: rng.wald(p["mu"], p["lambda"], size) + p["loc"],
+        std_support=half_line,
     )
 )
 register(
@@ -122,5 +128,6 @@ register(
         scipy_dist=stats.rayleigh,
         scipy_kwargs=lambda p: dict(loc=p["loc"], scale=p["sigma"]),
         native_draw=lambda p, size, rng: rng.rayleigh(p["sigma"], size) + p["loc"],
+        std_support=half_line,
     )
 )

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from typing import Any
+
 import numpy as np
 from scipy import stats
 
@@ -15,6 +18,20 @@ def _gpd_draw(p: Params, size: int | tuple[int, ...], rng: np.random.Generator) 
     if p["xi"] == 0:
         return p["loc"] + p["sigma"] * e
     return p["loc"] + p["sigma"] * np.expm1(p["xi"] * e) / p["xi"]
+
+
+def _pareto_support(kw: Mapping[str, Any]) -> tuple[float, float]:
+    return 1.0, np.inf
+
+
+def _gpd_support(kw: Mapping[str, Any]) -> tuple[float, float]:
+    c = kw["c"]  # scipy's genpareto._get_support
+    return 0.0, (-1.0 / c if c < 0 else np.inf)
+
+
+def _gev_support(kw: Mapping[str, Any]) -> tuple[float, float]:
+    c = kw["c"]  # scipy's genextreme._get_support (c = -xi)
+    return (1.0 / c if c < 0 else -np.inf), (1.0 / c if c > 0 else np.inf)
 
 
 def _gev_draw(p: Params, size: int | tuple[int, ...], rng: np.random.Generator) -> np.ndarray:
@@ -44,6 +61,7 @@ register(
         scipy_dist=stats.pareto,
         scipy_kwargs=lambda p: dict(b=p["alpha"], loc=p["loc"], scale=p["xm"]),
         native_draw=lambda p, size, rng: p["xm"] * (rng.pareto(p["alpha"], size) + 1.0) + p["loc"],
+        std_support=_pareto_support,
     )
 )
 register(
@@ -55,6 +73,7 @@ register(
         scipy_dist=stats.genpareto,
         scipy_kwargs=lambda p: dict(c=p["xi"], loc=p["loc"], scale=p["sigma"]),
         native_draw=_gpd_draw,
+        std_support=_gpd_support,
     )
 )
 register(
@@ -66,5 +85,6 @@ register(
         scipy_dist=stats.genextreme,
         scipy_kwargs=lambda p: dict(c=-p["xi"], loc=p["mu"], scale=p["sigma"]),
         native_draw=_gev_draw,
+        std_support=_gev_support,
     )
 )

@@ -1,0 +1,154 @@
+"""Which candidates a likelihood criterion may compare: densities with densities, masses with masses.
+
+Selection by ``aic`` or ``bic`` compares log-likelihoods. A count family's log-likelihood is a
+sum of log *probabilities* (each at most 0); a continuous family's is a sum of log *densities*,
+which change with the unit of measurement (the same data in minutes instead of hours shift every
+log-density by ``log 60``). The two are on different scales, so comparing a poisson with a
+normal by AIC says nothing about which model is better: that is refused, before anything is
+fitted where possible.
+
+What each method is, as far as a criterion goes (:func:`method_outcome`):
+
+* ``"mass"``: the count families (``poisson``, ``negative_binomial``, ``geometric``,
+  ``binomial``; the catalog's :attr:`~samplewright.fitting.catalog.MethodSpec.counts`);
+* ``"density"``: every other parametric family;
+* ``auto``: what its ``candidates`` are (a list mixing the two is refused as such); without
+  ``candidates`` its data decide (``"data"``: whole-number data may be read as counts,
+  :mod:`samplewright.check.auto`), which is checked once fitted;
+* ``None``: methods a criterion does not rank (``empirical``, ``interpolated``, ``spliced``,
+  ``smoothed``, ``kaplan_meier``, ``empirical_pmf``: no comparable likelihood).
+
+:func:`check_comparable` is the planning check (method names and options only; this module
+imports neither numpy nor scipy), :func:`check_comparable_fitted` the same rule on fitted
+samplers, for a set whose kind only the data decided.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+from typing import Any, Literal
+
+from samplewright.core.errors import MethodError
+from samplewright.fitting.catalog import CATALOG
+
+__all__ = [
+    "Outcome",
+    "RANKED_RULES",
+    "check_comparable",
+    "check_comparable_fitted",
+    "method_outcome",
+]
+
+# What a method's likelihood is a likelihood of ("data": decided by the data, at fit time).
+Outcome = Literal["density", "mass", "data"]
+# The selection rules that compare likelihoods.
+RANKED_RULES = ("aic", "bic")
+
+
+def _family_outcome(name: str, where: str) -> Outcome:
+    spec = CATALOG.get(name) if isinstance(name, str) else None
+    if spec is None or spec.group != "family":
+        raise MethodError(f"{where}: unknown family {name!r}")
+    return "mass" if spec.counts else "density"
+
+
+def method_outcome(method: str, options: Mapping[str, Any] | None = None) -> Outcome | None:
+    """What ``method`` with ``options`` models, for a likelihood criterion (module docstring).
+
+    >>> method_outcome("poisson"), method_outcome("gamma"), method_outcome("empirical")
+    ('mass', 'density', None)
+    >>> method_outcome("auto"), method_outcome("auto", {"candidates": ["poisson", "geometric"]})
+    ('data', 'mass')
+    """
+    spec = CATALOG.get(method) if isinstance(method, str) else None
+    if spec is None:
+        raise MethodError(f"method: unknown method {method!r}")
+    if spec.group == "family":
+        return "mass" if spec.counts else "density"
+    if method != "auto":
+        return None
+    candidates = (options or {}).get("candidates")
+    if not candidates:
+        return "data"
+    where = "option 'candidates' of auto"
+    if not isinstance(candidates, list | tuple):
+        raise MethodError(f"{where}: expected a list of family names, found {candidates!r}")
+    kinds = {c: _family_outcome(c, where) for c in candidates}
+    if len(set(kinds.values())) > 1:
+        mass = [c for c, k in kinds.items() if k == "mass"]
+        dens = [c for c, k in kinds.items() if k == "density"]
+        raise MethodError(
+            f"{where}: {', '.join(mass)} model counts (a probability mass) and "
+            f"{', '.join(dens)} a density; their likelihoods are not comparable, so list "
+            "only one kind"
+        )
+    return next(iter(kinds.values()))
+
+
+def _refuse_mix(rule: str, kinds: Mapping[str, Outcome | None]) -> None:
+    mass = [label for label, k in kinds.items() if k == "mass"]
+    dens = [label for label, k in kinds.items() if k == "density"]
+    if mass and dens:
+        raise MethodError(
+            f"choose {rule!r}: candidates {', '.join(mass)} model counts (a probability mass) "
+            f"and {', '.join(dens)} a density; their {rule.upper()} are not comparable (a "
+            "density's likelihood depends on the unit of measurement). Compare one kind "
+            "only, or choose a method label"
+        )
+
+
+def check_comparable(methods: Sequence[tuple[str, str, Mapping[str, Any]]], rule: str) -> None:
+    """Refuse, at planning, a candidate set a likelihood criterion cannot rank.
+
+    Parameters
+    ----------
+    methods : sequence of (label, method, options)
+        The candidates of one dataset.
+    rule : str
+        The selection rule; only ``"aic"`` and ``"bic"`` compare likelihoods (any other rule
+        passes).
+
+    Raises
+    ------
+    MethodError
+        Naming the candidates that model counts and those that model a density, or the
+        ``auto`` whose own candidates mix the two.
+
+    Examples
+    --------
+    >>> check_comparable([("p", "poisson", {}), ("nb", "negative_binomial", {})], "aic")
+    >>> check_comparable([("p", "poisson", {}), ("n", "normal", {})], "first")
+    >>> check_comparable([("p", "poisson", {}), ("n", "normal", {})], "bic")
+    Traceback (most recent call last):
+    ...
+    samplewright.core.errors.MethodError: choose 'bic': candidates p model counts (a ...
+    """
+    if rule not in RANKED_RULES:
+        return
+    kinds: dict[str, Outcome | None] = {}
+    for label, method, options in methods:
+        try:
+            kinds[label] = method_outcome(method, options)
+        except MethodError as exc:
+            raise MethodError(f"candidate {label!r}: {exc}") from None
+    _refuse_mix(rule, kinds)
+
+
+def _fitted_outcome(sampler: Any, rule: str) -> Outcome | None:
+    value = getattr(sampler, rule, None)
+    family = getattr(sampler, "family", None)
+    if value is None or family is None:
+        return None
+    return "mass" if bool(getattr(family, "discrete", False)) else "density"
+
+
+def check_comparable_fitted(samplers: Sequence[tuple[str, Any]], rule: str) -> None:
+    """The rule of :func:`check_comparable` on fitted samplers ``(label, sampler)``.
+
+    A sampler takes part when it has the criterion (``sampler.aic`` / ``sampler.bic`` not None)
+    and a parametric ``family``; it models counts when ``family.discrete``. Needed when the data
+    decided what a candidate is (``auto`` without ``candidates``).
+    """
+    if rule not in RANKED_RULES:
+        return
+    _refuse_mix(rule, {label: _fitted_outcome(s, rule) for label, s in samplers})

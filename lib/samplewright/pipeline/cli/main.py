@@ -1,0 +1,79 @@
+"""The ``samplewright`` command: the parser, the dispatch and the error contract.
+
+Every command validates its input before it writes anything; errors print one line
+(``samplewright: error: ...``) and exit with status 2 (a command line that does not parse, input
+errors, unusable files, a failed write such as a full disk) or 3 (artifact integrity). The
+command groups import numpy, scipy or pandas only inside their commands, so
+``samplewright --version`` and ``--help`` stay fast.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Sequence
+from typing import NoReturn
+
+from samplewright import __version__
+from samplewright.core.errors import IntegrityError, SamplewrightError
+from samplewright.pipeline.cli import data, draws, fitting, inspect, workflow
+from samplewright.pipeline.cli.common import EXIT_INPUT, EXIT_INTEGRITY
+
+__all__ = ["UsageError", "build_parser", "main"]
+
+# in the order `samplewright --help` lists them
+GROUPS = (fitting, draws, inspect, data, workflow)
+
+
+class UsageError(Exception):
+    """A command line argparse cannot parse (reported in one line by :func:`main`)."""
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but a usage error becomes one line (``--help`` still shows the usage)."""
+
+    def error(self, message: str) -> NoReturn:
+        raise UsageError(f"{message} (see {self.prog} --help)")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The parser of every command (each group adds its own subcommands)."""
+    parser = _Parser(
+        prog="samplewright",
+        description="Fit, store, check and draw from input distributions for Monte Carlo models.",
+    )
+    parser.add_argument("--version", action="version", version=f"samplewright {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+    for group in GROUPS:
+        group.add_commands(sub)
+    return parser
+
+
+def _os_error(exc: OSError) -> str:
+    reason = exc.strerror or str(exc)
+    return f"{exc.filename}: {reason}" if exc.filename else reason
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run one command; return its exit status (0, 2 or 3)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except UsageError as exc:
+        print(f"samplewright: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    try:
+        return int(args.func(args))
+    except IntegrityError as exc:
+        print(f"samplewright: error: {exc}", file=sys.stderr)
+        return EXIT_INTEGRITY
+    except SamplewrightError as exc:
+        print(f"samplewright: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except OSError as exc:
+        print(f"samplewright: error: {_os_error(exc)}", file=sys.stderr)
+        return EXIT_INPUT
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
