@@ -29,12 +29,15 @@ from samplewright.core.errors import (
 # Public name -> module that defines it. Loaded on first access (PEP 562), so that
 # ``import samplewright`` (done by every Snakemake parse of a workflow) stays cheap.
 _LAZY = {
+    "AveragedSampler": "distributions.averaged",
     "BlockLengthResult": "resample.block_length",
     "BootstrapIntervalResult": "resample.intervals",
+    "CandidateSpreadResult": "check.candidate_spread",
     "CheckReportInput": "check.report_model",
     "CheckedSample": "core.checks",
     "EmpiricalPmfSampler": "distributions.empirical_pmf",
     "EmpiricalSampler": "distributions.empirical",
+    "EnsembleSampler": "distributions.ensemble",
     "GoodnessOfFitResult": "check.gof",
     "JointSampler": "distributions.joint",
     "KaplanMeierSampler": "distributions.kaplan_meier",
@@ -48,6 +51,7 @@ _LAZY = {
     "SmoothedSampler": "distributions.smoothed",
     "SplicedSampler": "distributions.spliced",
     "bootstrap_interval": "resample.intervals",
+    "candidate_spread": "check.candidate_spread",
     "check_sample": "core.checks",
     "composite_candidates": "fitting.composite",
     "draw_uniforms": "core.uniforms",
@@ -55,8 +59,10 @@ _LAZY = {
     "fingerprint_arrays": "store.fingerprints",
     "fingerprint_file": "store.fingerprints",
     "fit": "fitting.api",
+    "fit_averaged": "fitting.averaged",
     "fit_interval": "fitting.interval_api",
     "fit_joint": "fitting.joint",
+    "fit_replicates": "fitting.replicates",
     "from_knots": "distributions.piecewise",
     "from_quantiles": "fitting.expert",
     "from_three_points": "fitting.expert",
@@ -80,6 +86,7 @@ _LAZY = {
 }
 
 if TYPE_CHECKING:  # pragma: no cover
+    from samplewright.check.candidate_spread import CandidateSpreadResult, candidate_spread
     from samplewright.check.compare import rank_candidates
     from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit
     from samplewright.check.gof_incomplete import goodness_of_fit_incomplete
@@ -89,9 +96,11 @@ if TYPE_CHECKING:  # pragma: no cover
     from samplewright.core.checks import CheckedSample, check_sample
     from samplewright.core.randomness import make_rng, stream_rng
     from samplewright.core.uniforms import draw_uniforms, estimate_mean
+    from samplewright.distributions.averaged import AveragedSampler
     from samplewright.distributions.base import Sampler
     from samplewright.distributions.empirical import EmpiricalSampler
     from samplewright.distributions.empirical_pmf import EmpiricalPmfSampler
+    from samplewright.distributions.ensemble import EnsembleSampler
     from samplewright.distributions.joint import JointSampler
     from samplewright.distributions.kaplan_meier import KaplanMeierSampler
     from samplewright.distributions.metalog import MetalogSampler
@@ -102,10 +111,12 @@ if TYPE_CHECKING:  # pragma: no cover
     from samplewright.distributions.smoothed import SmoothedSampler
     from samplewright.distributions.spliced import SplicedSampler
     from samplewright.fitting.api import fit, known_methods, read_knots
+    from samplewright.fitting.averaged import fit_averaged
     from samplewright.fitting.composite import composite_candidates
     from samplewright.fitting.expert import from_quantiles, from_three_points
     from samplewright.fitting.interval_api import fit_interval
     from samplewright.fitting.joint import fit_joint
+    from samplewright.fitting.replicates import fit_replicates
     from samplewright.intake.columns import read_column
     from samplewright.intake.tables import read_table
     from samplewright.pipeline.helpers import rules_path
@@ -135,13 +146,16 @@ def __dir__() -> list[str]:
 
 __all__ = [
     "ArtifactError",
+    "AveragedSampler",
     "BlockLengthResult",
     "BootstrapIntervalResult",
+    "CandidateSpreadResult",
     "CheckReportInput",
     "CheckedSample",
     "ConfigError",
     "EmpiricalPmfSampler",
     "EmpiricalSampler",
+    "EnsembleSampler",
     "FitError",
     "GoodnessOfFitResult",
     "InputDataError",
@@ -161,6 +175,7 @@ __all__ = [
     "SmoothedSampler",
     "SplicedSampler",
     "bootstrap_interval",
+    "candidate_spread",
     "check_sample",
     "composite_candidates",
     "draw_uniforms",
@@ -168,8 +183,10 @@ __all__ = [
     "fingerprint_arrays",
     "fingerprint_file",
     "fit",
+    "fit_averaged",
     "fit_interval",
     "fit_joint",
+    "fit_replicates",
     "from_knots",
     "from_quantiles",
     "from_three_points",

@@ -150,6 +150,16 @@ _LOWER = OptionSpec("lower", "lower bound, fixed (default: estimated)", ("number
 _UPPER = OptionSpec("upper", "upper bound, fixed (default: estimated)", ("number",))
 _N_TRIALS = OptionSpec("n_trials", "number of trials (required), an int >= 1", ("integer",))
 
+
+def _fix(*params: str) -> tuple[OptionSpec, ...]:
+    """Options that fix family parameters: each parameter's name takes a number (one spelling
+    for every family; fixed parameters are not counted in AIC/BIC)."""
+    return tuple(
+        OptionSpec(p, f"fixes parameter {p} at this number (default: estimated)", ("number",))
+        for p in params
+    )
+
+
 _DISPERSION = "samplewright.check.dispersion:count_diagnostics"
 _PARAMETRIC = "samplewright.fitting.mle:fit_parametric"
 
@@ -194,27 +204,65 @@ _METHODS = (
         2,
         weights=False,
     ),
-    _family("normal", "normal distribution (maximum likelihood)", 2),
-    _family("lognormal", "lognormal distribution", 2, (_LOC_FREE,)),
-    _family("exponential", "exponential distribution", 1, (_LOC_FREE,)),
-    _family("gamma", "gamma distribution", 2, (_LOC_FREE,)),
-    _family("weibull", "weibull distribution", 2, (_LOC_FREE,)),
-    _family("gumbel", "gumbel distribution (maxima)", 2),
-    _family("logistic", "logistic distribution", 2),
-    _family("loglogistic", "log-logistic distribution", 2, (_LOC_FREE,)),
-    _family("pareto", "pareto distribution", 2, (_LOC_NUMBER, _XM)),
-    _family("generalized_pareto", "generalized pareto distribution", 2, (_LOC_NUMBER,)),
-    _family("gev", "generalized extreme value distribution", 3),
-    _family("beta", "beta distribution on [lower, upper]", 2, (_LOWER_01, _UPPER_01)),
+    _family("normal", "normal distribution (maximum likelihood)", 2, _fix("mu", "sigma")),
+    _family("lognormal", "lognormal distribution", 2, (_LOC_FREE, *_fix("mu", "sigma"))),
+    _family("exponential", "exponential distribution", 1, (_LOC_FREE, *_fix("scale"))),
+    _family("gamma", "gamma distribution", 2, (_LOC_FREE, *_fix("shape", "scale"))),
+    _family("weibull", "weibull distribution", 2, (_LOC_FREE, *_fix("shape", "scale"))),
+    _family("gumbel", "gumbel distribution (maxima)", 2, _fix("mu", "beta")),
+    _family("logistic", "logistic distribution", 2, _fix("mu", "s")),
+    _family("loglogistic", "log-logistic distribution", 2, (_LOC_FREE, *_fix("alpha", "beta"))),
+    _family("pareto", "pareto distribution", 2, (_LOC_NUMBER, _XM, *_fix("alpha"))),
+    _family(
+        "generalized_pareto",
+        "generalized pareto distribution",
+        2,
+        (_LOC_NUMBER, *_fix("xi", "sigma")),
+    ),
+    _family("gev", "generalized extreme value distribution", 3, _fix("mu", "sigma", "xi")),
+    _family(
+        "beta",
+        "beta distribution on [lower, upper]",
+        2,
+        (_LOWER_01, _UPPER_01, *_fix("alpha", "beta")),
+    ),
     _family("uniform", "uniform distribution", 2, (_LOWER, _UPPER), censoring=False),
-    _family("triangular", "triangular distribution", 3, (_LOWER, _UPPER), censoring=False),
-    _family("inverse_gaussian", "inverse gaussian distribution", 2, (_LOC_FREE,)),
-    _family("student_t", "student t distribution (location, scale, degrees of freedom)", 3),
-    _family("rayleigh", "rayleigh distribution", 1, (_LOC_FREE,)),
-    _family("poisson", "poisson counts", 1, counts=True),
-    _family("negative_binomial", "negative binomial counts (over-dispersed)", 2, counts=True),
-    _family("geometric", "geometric counts (failures before the first success)", 1, counts=True),
-    _family("binomial", "binomial counts", 1, (_N_TRIALS,), counts=True),
+    _family(
+        "triangular",
+        "triangular distribution",
+        3,
+        (_LOWER, _UPPER, *_fix("mode")),
+        censoring=False,
+    ),
+    _family(
+        "inverse_gaussian",
+        "inverse gaussian distribution",
+        2,
+        (_LOC_FREE, *_fix("mu", "lambda")),
+    ),
+    _family(
+        "student_t",
+        "student t distribution (location, scale, degrees of freedom)",
+        3,
+        _fix("mu", "sigma", "nu"),
+    ),
+    _family("rayleigh", "rayleigh distribution", 1, (_LOC_FREE, *_fix("sigma"))),
+    _family("poisson", "poisson counts", 1, _fix("lambda"), counts=True),
+    _family(
+        "negative_binomial",
+        "negative binomial counts (over-dispersed)",
+        2,
+        _fix("r", "p"),
+        counts=True,
+    ),
+    _family(
+        "geometric",
+        "geometric counts (failures before the first success)",
+        1,
+        _fix("p"),
+        counts=True,
+    ),
+    _family("binomial", "binomial counts", 1, (_N_TRIALS, *_fix("p")), counts=True),
     MethodSpec(
         "spliced",
         "extension",
@@ -398,6 +446,21 @@ _METHODS = (
                 ("string",),
                 TAIL_RULES,
             ),
+        ),
+        censoring=True,
+    ),
+    MethodSpec(
+        "averaged",
+        "extension",
+        "the candidate families mixed by Akaike weights (model averaging), weights recorded",
+        "samplewright.fitting.averaged:fit_sample",
+        "averaged",
+        2,
+        (
+            OptionSpec(
+                "candidates", "family names to average (default: by the data's sign)", ("array",)
+            ),
+            OptionSpec("criterion", "'aic' (default) or 'bic'", ("string",), CRITERIA),
         ),
         censoring=True,
     ),
