@@ -9,6 +9,15 @@ import pytest
 from scipy import stats
 
 import samplewright as sw
+from samplewright.check.auto import (
+    COUNTS,
+    NON_NEGATIVE,
+    POSITIVE,
+    default_candidates,
+    dense_share,
+    fit_auto,
+    read_integers,
+)
 from samplewright.core.errors import MethodError
 from samplewright.pipeline.cli import main
 
@@ -78,6 +87,9 @@ def test_auto_default_candidates_follow_the_data() -> None:
         ({"criterion": "hqc"}, "option 'criterion' of auto"),
         ({"n_resamples": -1}, "option 'n_resamples' of auto"),
         ({"bins": 3}, "unknown option 'bins' for auto"),
+        ({"integers": "yes"}, "option 'integers' of auto: expected one of detect, counts"),
+        ({"seed": -3}, "option 'seed' of auto: expected an int >= 0"),
+        ({"candidates": []}, "option 'candidates' of auto: expected a list of family names"),
     ],
 )
 def test_auto_rejects_bad_options(options: dict, message: str) -> None:
@@ -102,7 +114,7 @@ def test_show_prints_the_ranking(tmp_path: Path, capsys: pytest.CaptureFixture) 
     shown = capsys.readouterr().out
     for fam in meta["diagnostics"]["auto"]["candidates"]:
         assert fam in shown
-    assert "parametric-bootstrap" in shown
+    assert f"chosen: {meta['diagnostics']['auto']['chosen']}" in shown
 
 
 def test_poor_fit_is_flagged_when_every_candidate_is_rejected() -> None:
@@ -114,3 +126,69 @@ def test_poor_fit_is_flagged_when_every_candidate_is_rejected() -> None:
     assert s.diagnostics["auto"]["poor_fit"] is True
     good = sw.fit(_gamma_data(), method="auto", candidates=["gamma"])
     assert good.diagnostics["auto"]["poor_fit"] is False
+
+
+def test_whole_numbers_are_read_by_the_dense_share_rule_or_as_stated() -> None:
+    """Dense small integers are counts, sparse whole amounts measurements; 'integers' overrides."""
+    rng = np.random.default_rng(21)
+    counts = rng.poisson(4.0, 200).astype(float)
+    amounts = np.round(rng.lognormal(6.0, 1.0, 200))
+    assert default_candidates(counts) == COUNTS and default_candidates(amounts) == POSITIVE
+    assert default_candidates(counts, integers="measurements") == NON_NEGATIVE  # zeros occur
+    assert default_candidates(amounts, integers="counts") == COUNTS
+    stepped = 5.0 * rng.poisson(20.0, 300)  # minutes in steps of 5: about a fifth of the integers
+    assert read_integers(stepped)[0] == "measurements" and read_integers(stepped)[1] <= 0.25
+    s = sw.fit(amounts, "auto", n_resamples=0)
+    assert s.diagnostics["auto"]["reading"] == {
+        "as": "measurements",
+        "integers": "detect",
+        "dense_share": pytest.approx(dense_share(amounts)),
+    }
+    assert dense_share(counts, np.full(counts.size, 3.0)) == dense_share(np.repeat(counts, 3))
+
+
+def test_coarse_recording_is_warned_and_recorded() -> None:
+    """Values on a grid with many ties get a recording_resolution warning and the grid."""
+    x = np.round(np.random.default_rng(22).gamma(5.0, 3.0, 120), 0) + 0.5  # grid 0.5
+    s = sw.fit(x, "auto", n_resamples=0)
+    assert s.diagnostics["auto"]["resolution"]["step"] == 0.5
+    kinds = [w["kind"] for w in s.diagnostics["warnings"]]
+    assert kinds == ["recording_resolution"]
+    fine = sw.fit(np.random.default_rng(22).gamma(5.0, 3.0, 120), "auto", n_resamples=0)
+    assert (
+        fine.diagnostics["warnings"] == []
+        and fine.diagnostics["auto"]["resolution"]["step"] is None
+    )
+
+
+def test_seed_and_rng_exclude_each_other_and_the_record_says_where_it_came_from() -> None:
+    """rng= and option seed= cannot both be given; the seed used is recorded."""
+    x = _gamma_data()
+    with pytest.raises(MethodError, match="give either rng or seed, not both"):
+        fit_auto(x, rng=1, seed=2, n_resamples=0)
+    assert fit_auto(x, rng=5, n_resamples=0).diagnostics["auto"]["seed"] == 5
+    s = sw.fit(x, "auto", seed=7, n_resamples=0).diagnostics["auto"]
+    assert (s["seed"], s["seed_source"]) == (7, "option")
+
+
+def test_unreliable_pvalues_do_not_flag_a_poor_fit(monkeypatch: pytest.MonkeyPatch) -> None:
+    """Candidates record n_failed and pvalues_reliable; unreliable p-values never set poor_fit."""
+    from samplewright.check import gof
+
+    real = gof.fit_family
+    calls = {"n": 0}
+
+    def flaky(name, x, w=None, **options):
+        calls["n"] += 1
+        if calls["n"] > 1 and calls["n"] % 2 == 0:
+            raise MethodError("refused on purpose")
+        return real(name, x, w, **options)
+
+    monkeypatch.setattr(gof, "fit_family", flaky)
+    monkeypatch.setattr(gof, "_closed_form_u", lambda name, sims, options: None)  # refit each
+    rng = np.random.default_rng(8)
+    x = np.concatenate([rng.normal(5.0, 1.0, 300), rng.normal(15.0, 1.0, 300)])
+    s = sw.fit(x, "auto", candidates=["exponential"], n_resamples=99)
+    row = s.diagnostics["auto"]["ranking"][0]
+    assert row["n_failed"] > 10 and row["pvalues_reliable"] is False
+    assert s.diagnostics["auto"]["poor_fit"] is False

@@ -82,6 +82,10 @@ def test_empirical_sorts_values_and_keeps_weights_aligned() -> None:
     np.testing.assert_allclose(s.weights, [0.5, 0.25, 0.25])  # hand computation: w / sum(w)
     assert s.params == {"n": 3, "weighted": True}
     assert set(s.payload()) == {"value", "weight"}
+    # the payload keeps the frequency weights as given, in the order of the values
+    np.testing.assert_array_equal(s.payload()["weight"], [2.0, 1.0, 1.0])
+    rebuilt = EmpiricalSampler.from_payload(s.payload(), {"method": "empirical"})
+    np.testing.assert_array_equal(rebuilt.cdf([1.0, 2.0, 3.0]), s.cdf([1.0, 2.0, 3.0]))
     assert set(EmpiricalSampler([1.0]).payload()) == {"value"}
 
 

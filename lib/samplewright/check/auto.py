@@ -15,11 +15,12 @@ candidate's p-values are marked unreliable (``pvalues_reliable``) and do not rai
 
 Support rule: a candidate whose fit has a support warning ranks after every candidate without
 one, whatever its criterion: it puts more than 0.1% of its mass below 0 while no value is
-negative (``support_below_zero``), or its mean is infinite (``infinite_mean``), or the fitting
-step recorded another support warning (``support_beyond_data``). The warnings a fit records in
-its diagnostics (``warnings``) are used; for a fit that records none, auto checks the first two
-itself. Among warned candidates the criterion decides as above; the chosen one's warnings are
-kept in the sampler's ``diagnostics["warnings"]``.
+negative (``support_below_zero``), a value lies outside its support (``support_beyond_data``),
+or its mean is infinite (``infinite_mean``). These are the warnings every family fit records
+(:func:`samplewright.fitting.mle_warnings.fit_warnings`); ``infinite_variance`` is recorded but
+does not demote (a heavy tail with a finite mean can be the right model). Among warned
+candidates the criterion decides as above. Every candidate's warnings are in its ranking row;
+the chosen one's are kept in the sampler's ``diagnostics["warnings"]``.
 
 Counts or measurements (whole-number data). Data that are all whole numbers >= 0 are not
 necessarily counts: amounts in whole currency units and durations in whole minutes are
@@ -29,7 +30,7 @@ data's 10% to their 90% quantile occur in the data (small integers with repeats:
 grid is what the data are made of); otherwise they are **measurements** (sparse on the
 integers: the unit is a recording resolution much finer than the data's spread, like 400
 claim amounts in whole euros spread over tens of thousands; or every value lies on a coarser
-grid, like minutes recorded in steps of 5, which fills at most a fifth of the integers). Few
+grid, like minutes recorded in steps of 5, which fills about a fifth of the integers). Few
 large counts look sparse too and are read as measurements; option ``integers`` ("counts" or
 "measurements") states what the data are, and ``candidates`` overrides everything.
 
@@ -68,11 +69,11 @@ from samplewright.core.randomness import SeedLike, make_rng
 from samplewright.distributions.families import FAMILIES, get_family
 from samplewright.distributions.parametric import ParametricSampler
 from samplewright.distributions.steps import step_index
-from samplewright.fitting.catalog import CRITERIA, INTEGER_READINGS, IntegerReading
+from samplewright.fitting.catalog import CRITERIA, INTEGER_READINGS, Criterion, IntegerReading
+from samplewright.fitting.mle_warnings import fit_warnings
 from samplewright.fitting.registry import check_options, check_sample_for
 
 __all__ = [
-    "BELOW_ZERO_SHARE",
     "COUNTS",
     "DENSE_SHARE",
     "NON_NEGATIVE",
@@ -95,8 +96,6 @@ COUNTS = ("poisson", "negative_binomial", "geometric")
 POOR_FIT_P = 0.01
 # whole numbers are counts when more than this share of the integers in their bulk occur
 DENSE_SHARE = 0.5
-# mass below 0 above which a fit to non-negative data gets a support warning
-BELOW_ZERO_SHARE = 0.001
 # warning kinds that rank a candidate after those without
 SUPPORT_KINDS = ("support_below_zero", "support_beyond_data", "infinite_mean")
 
@@ -164,34 +163,14 @@ def default_candidates(
     return REAL_LINE
 
 
-def support_warnings(sampler: ParametricSampler, x: np.ndarray) -> list[dict[str, str]]:
-    """The support warnings of a fit: those its diagnostics record, else auto's own checks
-    (mass below 0 for non-negative data above :data:`BELOW_ZERO_SHARE`; an infinite mean).
+def support_warnings(family: str, params: dict[str, float], x: np.ndarray) -> list[dict[str, str]]:
+    """The warnings the fit of ``family(params)`` to ``x`` records (plain JSON), as every family
+    fit does (:func:`~samplewright.fitting.mle_warnings.fit_warnings`).
 
-    >>> s = ParametricSampler("normal", {"mu": 1.0, "sigma": 1.0})
-    >>> [w["kind"] for w in support_warnings(s, np.array([0.5, 1.0, 2.0]))]
+    >>> [w["kind"] for w in support_warnings("normal", {"mu": 1.0, "sigma": 1.0}, np.ones(3))]
     ['support_below_zero']
     """
-    recorded = sampler.diagnostics.get("warnings")
-    if recorded is not None:
-        return [dict(w) for w in recorded]
-    name = sampler.family.name
-    out = []
-    if not sampler.family.discrete and float(np.min(x)) >= 0:
-        below = float(sampler.cdf(0.0))
-        if below > BELOW_ZERO_SHARE:
-            out.append(
-                {
-                    "kind": "support_below_zero",
-                    "message": f"{name} puts {below:.2%} of its mass below 0, but no value is "
-                    "negative",
-                }
-            )
-    with np.errstate(all="ignore"):
-        mean = sampler.mean
-    if not np.isfinite(mean):
-        out.append({"kind": "infinite_mean", "message": f"{name} as fitted has no finite mean"})
-    return out
+    return [w.as_dict() for w in fit_warnings(family, params, x)]
 
 
 def _finite(v: float) -> float | None:
@@ -227,7 +206,9 @@ def _randomness(
     return make_rng(derived), derived, "data"
 
 
-def _check_options(options: dict[str, Any], x: np.ndarray) -> tuple[list[str] | None, str, int]:
+def _check_options(
+    options: dict[str, Any], x: np.ndarray
+) -> tuple[list[str] | None, Criterion, int]:
     candidates = options.get("candidates")
     if candidates is not None:
         if (
@@ -255,7 +236,8 @@ def _check_options(options: dict[str, Any], x: np.ndarray) -> tuple[list[str] | 
             f"option 'integers' of auto: expected one of {', '.join(INTEGER_READINGS)}, "
             f"found {integers!r}"
         )
-    return (None if candidates is None else list(candidates)), criterion, n_resamples
+    chosen: Criterion = criterion
+    return (None if candidates is None else list(candidates)), chosen, n_resamples
 
 
 def _row(rank: int, c: CandidateResult, warnings: list[dict[str, str]]) -> dict[str, Any]:
@@ -297,25 +279,21 @@ def fit_sample(
         rng=gen,
         resolution=grid.step,
     )
-    fitted: list[tuple[CandidateResult, ParametricSampler | None, list[dict[str, str]]]] = []
-    for c in ranked:
-        if c.error is not None:
-            fitted.append((c, None, []))
-            continue
-        s = ParametricSampler(c.family, c.params, loglik=c.loglik, aic=c.aic, bic=c.bic)
-        fitted.append((c, s, support_warnings(s, x)))
+    fitted = [
+        (c, [] if c.error is not None else support_warnings(c.family, c.params, x)) for c in ranked
+    ]
 
-    def group(item: tuple[CandidateResult, Any, list[dict[str, str]]]) -> int:
-        c, _, warned = item
+    def group(item: tuple[CandidateResult, list[dict[str, str]]]) -> int:
+        c, warned = item
         if c.error is not None:
             return 2
         return 1 if any(wr.get("kind") in SUPPORT_KINDS for wr in warned) else 0
 
     ordered = sorted(fitted, key=group)  # stable: the criterion's order within each group
-    best, _, best_warnings = ordered[0]
+    best, best_warnings = ordered[0]
     if best.error is not None:
         raise MethodError(f"auto: no candidate could be fitted (first error: {best.error})")
-    table = [_row(rank, c, warned) for rank, (c, _, warned) in enumerate(ordered, start=1)]
+    table = [_row(rank, c, warned) for rank, (c, warned) in enumerate(ordered, start=1)]
     discrete = get_family(best.family).discrete
     warnings = list(best_warnings)
     if grid.coarse and not discrete:

@@ -1,4 +1,4 @@
-"""Which candidates a likelihood criterion may compare: densities with densities, masses with masses.
+"""Which candidates a likelihood criterion may compare: densities with densities, masses alike.
 
 Selection by ``aic`` or ``bic`` compares log-likelihoods. A count family's log-likelihood is a
 sum of log *probabilities* (each at most 0); a continuous family's is a sum of log *densities*,
@@ -78,11 +78,15 @@ def method_outcome(method: str, options: Mapping[str, Any] | None = None) -> Out
         mass = [c for c, k in kinds.items() if k == "mass"]
         dens = [c for c, k in kinds.items() if k == "density"]
         raise MethodError(
-            f"{where}: {', '.join(mass)} model counts (a probability mass) and "
-            f"{', '.join(dens)} a density; their likelihoods are not comparable, so list "
-            "only one kind"
+            f"{where}: {_who(mass)} counts (a probability mass) but {_who(dens)} a density; "
+            "their likelihoods are not comparable, so list only one kind"
         )
     return next(iter(kinds.values()))
+
+
+def _who(labels: list[str]) -> str:
+    """``'a' models`` / ``'a', 'b' model``."""
+    return ", ".join(repr(x) for x in labels) + (" models" if len(labels) == 1 else " model")
 
 
 def _refuse_mix(rule: str, kinds: Mapping[str, Outcome | None]) -> None:
@@ -90,10 +94,10 @@ def _refuse_mix(rule: str, kinds: Mapping[str, Outcome | None]) -> None:
     dens = [label for label, k in kinds.items() if k == "density"]
     if mass and dens:
         raise MethodError(
-            f"choose {rule!r}: candidates {', '.join(mass)} model counts (a probability mass) "
-            f"and {', '.join(dens)} a density; their {rule.upper()} are not comparable (a "
-            "density's likelihood depends on the unit of measurement). Compare one kind "
-            "only, or choose a method label"
+            f"choose {rule!r}: {_who(mass)} counts (a probability mass) but {_who(dens)} a "
+            f"density; their {rule.upper()} are not comparable (a density's likelihood "
+            "depends on the unit of measurement). Compare one kind only, or choose a method "
+            "label"
         )
 
 
@@ -121,7 +125,7 @@ def check_comparable(methods: Sequence[tuple[str, str, Mapping[str, Any]]], rule
     >>> check_comparable([("p", "poisson", {}), ("n", "normal", {})], "bic")
     Traceback (most recent call last):
     ...
-    samplewright.core.errors.MethodError: choose 'bic': candidates p model counts (a ...
+    samplewright.core.errors.MethodError: choose 'bic': 'p' models counts (a probability ...
     """
     if rule not in RANKED_RULES:
         return

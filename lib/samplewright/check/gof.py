@@ -38,9 +38,11 @@ data and every replicate of a continuous family is rounded to it
 (:func:`~samplewright.check.resolution.snap_to_grid`, kept inside the fitted support) before it
 is refitted and tested, exactly as the data were, so the null distribution is honest for
 recorded data. The fit itself treats the recorded values as exact. Replicates of discrete
-families are never rounded. Replicates of normal, and of lognormal and exponential with a fixed location, are
-refitted in closed form for a whole batch at once; the others one by one (the replicate engine
-is :func:`samplewright.resample.replicates.parametric_replicates`). Randomness comes only from
+families are never rounded. Replicates of normal, and of lognormal, exponential, gamma, weibull,
+inverse_gaussian and rayleigh with a fixed location, are refitted for a whole batch at once
+(:mod:`samplewright.fitting.batch_fits`; a replicate it declines gets the checked refit); the
+others one by one (the replicate engine is
+:func:`samplewright.resample.replicates.parametric_replicates`). Randomness comes only from
 the ``rng`` argument (a numpy Generator or anything
 :func:`~samplewright.core.randomness.make_rng` accepts); the same seed and ``batch`` give the
 same p-values.
@@ -54,13 +56,13 @@ from dataclasses import dataclass
 from typing import Any, Literal, get_args
 
 import numpy as np
-from scipy import special
 
 from samplewright.check.resolution import recording_resolution, snap_to_grid
 from samplewright.core.checks import check_sample
 from samplewright.core.errors import MethodError
 from samplewright.core.randomness import SeedLike
 from samplewright.distributions.families import Family, get_family
+from samplewright.fitting.batch_fits import refit_cdf_rows
 from samplewright.fitting.catalog import CATALOG
 from samplewright.fitting.mle import FamilyFitResult, fit_family
 from samplewright.resample.replicates import DEFAULT_BATCH, parametric_replicates
@@ -143,13 +145,25 @@ def _rank_terms(n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]
 
 
 def _sorted_stats(u: np.ndarray) -> np.ndarray:
-    """KS, AD and CvM for rows of sorted CDF values ``u`` (shape (b, n), no weights)."""
+    """KS, AD and CvM for rows of sorted CDF values ``u`` (shape (b, n), no weights).
+
+    With ``d = u - (2i - 1) / 2n``: ``KS = max(max(-d), max(d)) + 1 / 2n`` and
+    ``CvM = 1 / 12n + sum(d^2)``; AD pairs ``log(1 - u_i)`` with the weight ``2(n - i) + 1``
+    instead of reversing ``u`` (the same sum; the bootstrap's hot loop, so computed in place).
+    """
     n = u.shape[-1]
     u = np.clip(u, _EPS, 1.0 - _EPS)
-    upper, lower, odd, mid = _rank_terms(n)
-    ks = np.maximum(np.max(upper - u, axis=-1), np.max(u - lower, axis=-1))
-    ad = -n - np.sum(odd * (np.log(u) + np.log1p(-u[..., ::-1])), axis=-1) / n
-    cvm = 1.0 / (12 * n) + np.sum((u - mid) ** 2, axis=-1)
+    _, _, odd, mid = _rank_terms(n)
+    d = u - mid
+    ks = np.maximum(-d.min(axis=-1), d.max(axis=-1)) + 0.5 / n
+    cvm = 1.0 / (12 * n) + np.einsum("...i,...i->...", d, d)
+    np.log(u, out=d)
+    d *= odd
+    np.negative(u, out=u)
+    np.log1p(u, out=u)
+    u *= odd[::-1]
+    d += u
+    ad = -n - d.sum(axis=-1) / n
     return np.stack([ks, ad, cvm], axis=-1)
 
 
@@ -223,19 +237,9 @@ def edf_statistics(
 
 
 def _closed_form_u(name: str, sims: np.ndarray, options: Mapping[str, Any]) -> np.ndarray | None:
-    """Fitted CDF values of each replicate row, refitted in closed form, or None if not offered."""
-    loc = options.get("loc", 0.0)
-    if name == "normal":
-        y = sims
-    elif name == "lognormal" and loc != "free":
-        y = np.log(sims - float(loc))
-    elif name == "exponential" and loc != "free":
-        y = sims - float(loc)
-        return -np.expm1(-y / y.mean(axis=1, keepdims=True))
-    else:
-        return None
-    m = y.mean(axis=1, keepdims=True)
-    return special.ndtr((y - m) / y.std(axis=1, keepdims=True))
+    """Fitted CDF values of each replicate row, sorted, refitted for the whole batch at once
+    (rows of NaN where the batch refit declines: the checked refit decides), or None."""
+    return refit_cdf_rows(name, sims, options)
 
 
 def _bootstrap(
@@ -265,7 +269,7 @@ def _bootstrap(
         if u is None:
             return None
         with np.errstate(all="ignore"):
-            return _sorted_stats(np.sort(u, axis=1))
+            return _sorted_stats(u)  # rows come sorted
 
     def refit(row: np.ndarray) -> np.ndarray:
         fit = fit_family(family.name, row, **options)
