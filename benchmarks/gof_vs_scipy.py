@@ -3,172 +3,142 @@
 
 Both fit the family to the data by maximum likelihood, draw B replicates from the fit, refit every
 replicate and compare the observed statistic with the replicates' (a parametric bootstrap, the
-p-value being ``(1 + #{T* >= T}) / (1 + B)`` in both). The parameters held fixed are the same on
-both sides:
-
-* normal: both estimate mean and sd (scipy's sd uses ``ddof=1``, ours is the MLE, ``ddof=0``);
-* exponential, gamma, weibull: location fixed at 0 (ours by default, scipy ``known_params``).
+p-value being ``(1 + #{T* >= T}) / (1 + B)`` in both). The location is fixed at 0 on both sides
+(ours by default, scipy's ``known_params``); the other parameters are estimated.
 
 samplewright computes KS, AD and CvM from one set of replicates in one call; scipy computes one
-statistic per call. The baseline is therefore scipy called once per statistic (ks, ad, cvm) with
-the same integer seed, so its three calls use the same replicates, and its time is the sum of the
-three calls. The ratio to one scipy call (the AD call alone) is printed too. Both baselines are
-measured in the same run; the p-values of both are printed side by side (they agree only up to
-Monte Carlo error, exactly only when both sides happen to draw the same replicates).
+statistic per call. The baseline is therefore scipy called once per statistic (ks, ad, cvm), its
+time the sum of the three calls. Ours and the baseline run alternately (A B A B, after one
+warm-up of each) and the row's ratio is the median of the per-pair ratios ours / baseline
+(:mod:`_timing`). The p-values of both sides are printed with the Monte Carlo standard error of
+their difference (they agree only up to Monte Carlo error; ``tests/unit/test_batch_fits.py``
+checks that).
 
 Data: generated with numpy's Generator from a fixed seed (benchmark data, not a reference).
 
-    python benchmarks/gof_vs_scipy.py [--sizes 200,2000] [--resamples 199] [--repeat 3]
-                                    [--families normal,exponential,gamma,weibull] [--seed 0]
+    python benchmarks/gof_vs_scipy.py [--quick] [--families gamma,lognormal,weibull]
+                                      [--size 1000] [--resamples 999] [--repeat 3]
 """
 
 from __future__ import annotations
 
 import argparse
-import statistics
-import time
+import math
 import warnings
 from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 import scipy
+from _timing import interleaved_ratio, row
 from scipy import stats
 
-import samplewright as sw
+from samplewright.check.gof import goodness_of_fit
 
 STATS = ("ks", "ad", "cvm")
+TARGET = "<= 0.05"
+BASELINE = f"scipy {scipy.__version__} goodness_of_fit, 3 calls (ks, ad, cvm)"
 
-# family -> (scipy distribution, scipy known_params, data generator, scipy name of our params)
-CASES: dict[str, tuple[Any, dict[str, float] | None, Callable[..., np.ndarray], dict[str, str]]] = {
-    "normal": (
-        stats.norm,
-        None,
-        lambda g, n: g.normal(10.0, 2.0, n),
-        {"mu": "loc", "sigma": "scale"},
-    ),
-    "exponential": (
-        stats.expon,
-        {"loc": 0.0},
-        lambda g, n: g.exponential(3.0, n),
-        {"scale": "scale"},
-    ),
-    "gamma": (
-        stats.gamma,
-        {"loc": 0.0},
-        lambda g, n: g.gamma(2.0, 3.0, n),
-        {"shape": "a", "scale": "scale"},
-    ),
-    "weibull": (
-        stats.weibull_min,
-        {"loc": 0.0},
-        lambda g, n: 2.0 * g.weibull(1.5, n),
-        {"shape": "c", "scale": "scale"},
-    ),
+# family -> (scipy distribution, data generator)
+CASES: dict[str, tuple[Any, Callable[[np.random.Generator, int], np.ndarray]]] = {
+    "gamma": (stats.gamma, lambda g, n: g.gamma(2.0, 3.0, n)),
+    "lognormal": (stats.lognorm, lambda g, n: g.lognormal(1.0, 0.6, n)),
+    "weibull": (stats.weibull_min, lambda g, n: 2.0 * g.weibull(1.5, n)),
+    "normal": (stats.norm, lambda g, n: g.normal(10.0, 2.0, n)),
+    "exponential": (stats.expon, lambda g, n: g.exponential(3.0, n)),
 }
+DEFAULT_FAMILIES = ("gamma", "lognormal", "weibull")
 
 
-def timed(fn: Callable[[], Any]) -> tuple[float, Any]:
-    t0 = time.perf_counter()
-    out = fn()
-    return time.perf_counter() - t0, out
-
-
-def median_timed(repeat: int, fn: Callable[[], Any]) -> tuple[float, Any]:
-    runs = [timed(fn) for _ in range(repeat)]
-    return statistics.median(t for t, _ in runs), runs[-1][1]
-
-
-def warm_up(families: list[str]) -> None:
-    """One small untimed call per family on both sides (imports, first-call caches)."""
-    g = np.random.default_rng(12345)
+def _scipy_calls(family: str, x: np.ndarray, n_resamples: int, seed: int) -> dict[str, Any]:
+    """scipy's three calls (one per statistic), same seed for each."""
+    dist = CASES[family][0]
+    known = None if family == "normal" else {"loc": 0.0}
+    out = {}
     with warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        for family in families:
-            dist, known, gen_data, _ = CASES[family]
-            x = gen_data(g, 50)
-            sw.goodness_of_fit(x, family, n_resamples=3, rng=g)
-            stats.goodness_of_fit(dist, x, known_params=known, n_mc_samples=3, rng=g)
+        warnings.simplefilter("ignore", RuntimeWarning)  # scipy's optimiser on replicates
+        for s in STATS:
+            out[s] = stats.goodness_of_fit(
+                dist, x, known_params=known, statistic=s, n_mc_samples=n_resamples, rng=seed
+            )
+    return out
 
 
-def ints(text: str) -> list[int]:
-    return [int(float(v)) for v in text.split(",") if v.strip()]
+def compare(family: str, n: int, n_resamples: int, repeat: int, seed: int = 0) -> dict[str, Any]:
+    """Time ours against the three scipy calls on one data set; one table row."""
+    x = CASES[family][1](np.random.default_rng([seed, n]), n)
+    got: dict[str, Any] = {}
+
+    def ours() -> None:
+        got["ours"] = goodness_of_fit(x, family, n_resamples=n_resamples, rng=seed)
+
+    def theirs() -> None:
+        got["scipy"] = _scipy_calls(family, x, n_resamples, seed)
+
+    timing = interleaved_ratio(theirs, ours, repeat=repeat)
+    pv_ours = got["ours"].pvalues
+    pv_scipy = {s: float(got["scipy"][s].pvalue) for s in STATS}
+    worst = max(
+        abs(pv_ours[s] - pv_scipy[s])
+        / math.sqrt(2.0 * max(pv_scipy[s] * (1.0 - pv_scipy[s]), 1e-3) / n_resamples)
+        for s in STATS
+    )
+    full = n >= 1000 and n_resamples >= 999
+    return row(
+        f"goodness of fit {family}, n={n}, B={n_resamples}, ks+ad+cvm",
+        BASELINE,
+        timing["ratio"],
+        TARGET if full else f"(quick size; {TARGET} at n=1000, B=999)",
+        ours_s=timing["candidate_s"],
+        baseline_s=timing["baseline_s"],
+        pvalues_ours=pv_ours,
+        pvalues_scipy=pv_scipy,
+        worst_pvalue_gap_in_se=worst,
+    )
 
 
-def main() -> None:
+def rows(
+    quick: bool,
+    families: tuple[str, ...] = DEFAULT_FAMILIES,
+    size: int | None = None,
+    n_resamples: int | None = None,
+    repeat: int | None = None,
+) -> list[dict[str, Any]]:
+    """One row per family; quick: n = 200, B = 49, one pair (seconds), else n = 1000, B = 999."""
+    n = size or (200 if quick else 1000)
+    b = n_resamples or (49 if quick else 999)
+    r = repeat or (1 if quick else 3)
+    out = []
+    for family in families:
+        res = compare(family, n, b, r)
+        out.append(res)
+        pv = "  ".join(
+            f"{s} {res['pvalues_ours'][s]:.3f}|{res['pvalues_scipy'][s]:.3f}" for s in STATS
+        )
+        print(
+            f"  {family:<12} ours {res['ours_s']:.3f} s, scipy {res['baseline_s']:.3f} s, "
+            f"ratio {res['ratio']:.4f}; p ours|scipy {pv} "
+            f"(largest gap {res['worst_pvalue_gap_in_se']:.1f} SE)",
+            flush=True,
+        )
+    return out
+
+
+def main(argv: list[str] | None = None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument(
-        "--sizes",
-        type=ints,
-        default=[200, 2000],
-        help="comma-separated sample sizes (default 200,2000)",
-    )
-    ap.add_argument(
-        "--resamples",
-        type=int,
-        default=199,
-        help="bootstrap replicates B on both sides (default 199)",
-    )
-    ap.add_argument(
-        "--families", default=",".join(CASES), help=f"comma-separated subset of {','.join(CASES)}"
-    )
-    ap.add_argument("--repeat", type=int, default=3, help="timed runs per case, median (default 3)")
-    ap.add_argument("--seed", type=int, default=0, help="seed of data and bootstrap (default 0)")
-    args = ap.parse_args()
-    families = [f.strip() for f in args.families.split(",") if f.strip()]
+    ap.add_argument("--quick", action="store_true", help="n = 200, B = 49, one pair")
+    ap.add_argument("--families", default=",".join(DEFAULT_FAMILIES), help=", ".join(CASES))
+    ap.add_argument("--size", type=int, default=None, help="sample size (default 1000)")
+    ap.add_argument("--resamples", type=int, default=None, help="replicates B (default 999)")
+    ap.add_argument("--repeat", type=int, default=None, help="timed A B pairs (default 3)")
+    args = ap.parse_args(argv)
+    families = tuple(f.strip() for f in args.families.split(",") if f.strip())
     unknown = sorted(set(families) - set(CASES))
     if unknown:
         ap.error(f"--families: unknown {unknown[0]!r}; expected some of {', '.join(CASES)}")
-    B = args.resamples
-    warm_up(families)
-
-    print(
-        f"parametric bootstrap, B = {B}, median of {args.repeat}; baseline = scipy "
-        f"{scipy.__version__} stats.goodness_of_fit, once per statistic (ks+ad+cvm), same run"
-    )
-    print("time ratio = ours / baseline (< 1: ours faster); p-values ours | scipy")
-    head = (
-        f"  {'family':<12}{'n':>6}{'ours s':>9}{'scipy s':>9}{'ratio':>7}{'vs ad':>7}"
-        f"{'par diff':>10}   " + "   ".join(f"{s:>3} ours|scipy" for s in STATS)
-    )
-    print(head)
-    for fi, family in enumerate(families):
-        dist, known, gen_data, names = CASES[family]
-        for n in args.sizes:
-            data_rng = np.random.default_rng([args.seed, fi, n])
-            x = gen_data(data_rng, n)
-            t_ours, ours = median_timed(
-                args.repeat,
-                lambda x=x, family=family: sw.goodness_of_fit(
-                    x, family, n_resamples=B, rng=args.seed
-                ),
-            )
-            t_scipy, theirs = {}, {}
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore", RuntimeWarning)  # scipy's optimiser on replicates
-                for s in STATS:
-                    t_scipy[s], theirs[s] = median_timed(
-                        args.repeat,
-                        lambda x=x, dist=dist, known=known, s=s: stats.goodness_of_fit(
-                            dist, x, known_params=known, statistic=s, n_mc_samples=B, rng=args.seed
-                        ),
-                    )
-            total = sum(t_scipy.values())
-            fitted = theirs["ad"].fit_result.params
-            diff = max(
-                abs(ours.params[k] - float(getattr(fitted, v))) / abs(ours.params[k])
-                for k, v in names.items()
-            )
-            pv = "   ".join(f"{ours.pvalues[s]:>6.3f}|{theirs[s].pvalue:<6.3f}" for s in STATS)
-            print(
-                f"  {family:<12}{n:>6}{t_ours:>9.3f}{total:>9.3f}{t_ours / total:>7.2f}"
-                f"{t_ours / t_scipy['ad']:>7.2f}{diff:>10.1e}   {pv}",
-                flush=True,
-            )
-    print(
-        "par diff = largest relative difference between our fitted parameters and scipy's; "
-        "vs ad = ours / scipy's single AD call"
-    )
+    print(f"baseline: {BASELINE}; ratio = ours / baseline, median of A B pairs")
+    for r in rows(args.quick, families, args.size, args.resamples, args.repeat):
+        print(f"{r['name']} | {r['baseline']} | {r['ratio']:.4f} | {r['target']}")
 
 
 if __name__ == "__main__":

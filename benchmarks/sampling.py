@@ -1,41 +1,43 @@
 #!/usr/bin/env python3
 """Draw speed of samplewright's samplers against the plain numpy/scipy way of drawing the same.
 
-Million draws per second of ``sampler.draw(n, rng)`` for n = 1e6 and 1e7, each against a named
-baseline measured in the same run on the same generator state (a fresh ``default_rng(seed)``
-before every timed call, so ours and the baseline see the same uniforms where both use them):
+Each row times ``sampler.draw(n, rng)`` against a named baseline measured in the same run, the
+two interleaved (A B A B after one warm-up of each, :mod:`_timing`), and reports the median of
+the per-pair time ratios ours / baseline (< 1: ours faster). Every call gets a fresh
+``default_rng(seed)``, so where both sides use uniforms they use the same ones.
 
-* ``EmpiricalSampler`` (10,000 values) vs ``rng.choice(values, n)`` on the same sorted array;
-  weighted, vs ``rng.choice(values, n, p=weights)``;
-* ``PiecewiseSampler`` with 1000 knots equally spaced in probability, and with 1000 unequally
-  spaced ones, vs ``np.interp(rng.random(n), p, x)`` (the same uniforms and the same answer);
+* interpolated draws (``fit(data, "interpolated")``: knots equally spaced in probability) vs
+  generating the uniforms alone, ``rng.random(n)`` (the floor of any inverse-transform draw);
+  target at most 4 (1e6 knots, 1e7 draws);
+* a piecewise-linear CDF with unequally spaced knots (guide table) vs generating the uniforms
+  alone, and vs ``np.interp(rng.random(n), p, x)`` (the same numbers by binary search);
+* ``EmpiricalSampler`` (10,000 values) vs ``rng.choice(values, n)``; weighted, vs
+  ``rng.choice(values, n, p=weights)``;
 * ``ParametricSampler`` for normal, lognormal, gamma, weibull, exponential vs the scipy.stats
-  frozen distribution's ``.rvs(size=n, random_state=rng)`` with the same parameters;
-* the spliced sampler (``samplewright.fit(data, "spliced")``, empirical body and GPD tail) vs
-  ``EmpiricalSampler`` of the same data.
+  frozen distribution's ``.rvs(size=n, random_state=rng)``.
 
-Each figure is the median of ``--repeat`` timed calls, ours and the baseline timed alternately
-(which one goes first swaps every repeat); ``speed ratio`` is ours / baseline in draws
-per second (> 1: ours faster). For the piecewise rows the largest absolute difference from
-``np.interp`` is printed as a check that both compute the same thing. Data are generated with
-numpy's Generator from a fixed seed (benchmark data, not a reference).
+The piecewise rows also check that ours and ``np.interp`` give the same numbers (largest absolute
+difference printed). Data are generated with numpy's Generator from a fixed seed (benchmark data,
+not a reference).
 
-    python benchmarks/sampling.py [--sizes 1e6,1e7] [--repeat 5] [--seed 0]
+    python benchmarks/sampling.py [--quick] [--draws 1e7] [--knots 1e6] [--repeat 5]
 """
 
 from __future__ import annotations
 
 import argparse
-import statistics
-import time
 from collections.abc import Callable
+from typing import Any
 
 import numpy as np
+from _timing import interleaved_ratio, row
 from scipy import stats
 
 import samplewright as sw
+from samplewright.distributions.piecewise import PiecewiseSampler
 
 Draw = Callable[[int, np.random.Generator], np.ndarray]
+SEED = 0
 
 # family -> (our parameters, the same distribution frozen in scipy.stats)
 PARAMETRIC = {
@@ -47,138 +49,142 @@ PARAMETRIC = {
 }
 
 
-def timed(fn: Draw, n: int, seed: int) -> tuple[float, np.ndarray]:
-    rng = np.random.default_rng(seed)
-    t0 = time.perf_counter()
-    out = fn(n, rng)
-    elapsed = time.perf_counter() - t0
-    if len(out) != n:
-        raise SystemExit(f"a draw returned {len(out)} values, expected {n}")
-    return elapsed, out
+def _pair(ours: Draw, base: Draw, n: int, repeat: int) -> dict[str, float]:
+    """Interleaved timing of two draws of ``n`` values, each from a fresh generator."""
+    return interleaved_ratio(
+        lambda: base(n, np.random.default_rng(SEED)),
+        lambda: ours(n, np.random.default_rng(SEED)),
+        repeat=repeat,
+    )
 
 
-def rates(ours: Draw, base: Draw, n: int, repeat: int, seed: int) -> tuple[float, float, float]:
-    """Median million draws per second of ours and of the baseline, and their largest difference.
-
-    The two are timed alternately (ours first on even repeats, the baseline first on odd ones),
-    so drift in the machine's state affects both alike.
-    """
-    t_ours, t_base = [], []
-    diff = 0.0
-    for i in range(repeat):
-        order = ((ours, t_ours), (base, t_base)) if i % 2 == 0 else ((base, t_base), (ours, t_ours))
-        outs = []
-        for fn, acc in order:
-            elapsed, out = timed(fn, n, seed)
-            acc.append(elapsed)
-            outs.append(out)
-        if i == 0 and outs[0].dtype.kind == "f":
-            diff = float(np.max(np.abs(outs[0] - outs[1])))
-        del outs
-    return n / statistics.median(t_ours) / 1e6, n / statistics.median(t_base) / 1e6, diff
+def _uniforms(n: int, rng: np.random.Generator) -> np.ndarray:
+    return rng.random(n)
 
 
-def cases(seed: int) -> list[tuple[str, Draw, str, Draw, bool]]:
-    """(label, ours, baseline label, baseline, compare outputs)."""
-    g = np.random.default_rng([seed, 1])
+def _piecewise_rows(n_draws: int, n_knots: int, repeat: int) -> list[dict[str, Any]]:
+    g = np.random.default_rng([SEED, 1])
+    data = g.gamma(2.0, 3.0, n_knots)
+    interp = sw.fit(data, "interpolated")
+    p = np.sort(np.concatenate([[0.0, 1.0], g.beta(0.5, 0.5, n_knots - 2)]))
+    unequal = PiecewiseSampler(np.quantile(data, p), p)
+    out = []
+    for label, sampler, target in (
+        ("interpolated", interp, "<= 4"),
+        ("piecewise, unequal knots", unequal, "(no target)"),
+    ):
+        t = _pair(sampler.draw, _uniforms, n_draws, repeat)
+        out.append(
+            row(
+                f"{label} draws, {n_knots:.0e} knots, {n_draws:.0e} draws",
+                "rng.random(n), the uniforms alone",
+                t["ratio"],
+                target,
+                ours_s=t["candidate_s"],
+                baseline_s=t["baseline_s"],
+            )
+        )
+    # np.interp on the same uniforms: the same answer by binary search
+    x, pp = unequal.x, unequal.p
+    t = _pair(unequal.draw, lambda n, r: np.interp(r.random(n), pp, x), n_draws, repeat)
+    diff = float(
+        np.max(
+            np.abs(
+                unequal.draw(n_draws, np.random.default_rng(SEED))
+                - np.interp(np.random.default_rng(SEED).random(n_draws), pp, x)
+            )
+        )
+    )
+    out.append(
+        row(
+            f"piecewise, unequal knots, {n_knots:.0e} knots, {n_draws:.0e} draws",
+            "np.interp(u, p, x), same uniforms",
+            t["ratio"],
+            "< 1",
+            ours_s=t["candidate_s"],
+            baseline_s=t["baseline_s"],
+            max_abs_diff=diff,
+        )
+    )
+    return out
+
+
+def _other_rows(n_draws: int, repeat: int) -> list[dict[str, Any]]:
+    g = np.random.default_rng([SEED, 2])
     data = g.gamma(2.0, 3.0, 10_000)
     emp = sw.EmpiricalSampler(data)
-    weights = g.uniform(0.5, 1.5, data.size)
-    wemp = sw.EmpiricalSampler(data, weights)
-    values, wnorm = emp.values, wemp.weights
-    wvalues = wemp.values
-    out: list[tuple[str, Draw, str, Draw, bool]] = [
-        (
-            "EmpiricalSampler",
-            emp.draw,
-            "rng.choice(values)",
-            lambda n, r: r.choice(values, n),
-            False,
-        ),
+    wemp = sw.EmpiricalSampler(data, g.uniform(0.5, 1.5, data.size))
+    values, wvalues, wnorm = emp.values, wemp.values, wemp.weights
+    cases: list[tuple[str, Draw, str, Draw]] = [
+        ("EmpiricalSampler", emp.draw, "rng.choice(values)", lambda n, r: r.choice(values, n)),
         (
             "EmpiricalSampler, weighted",
             wemp.draw,
             "rng.choice(values, p=w)",
             lambda n, r: r.choice(wvalues, n, p=wnorm),
-            False,
         ),
     ]
-
-    for label, p in (
-        ("equal", np.linspace(0.0, 1.0, 1000)),
-        ("unequal", np.sort(np.concatenate([[0.0, 1.0], g.beta(0.5, 0.5, 998)]))),
-    ):
-        x = np.quantile(data, p)
-        pw = sw.from_knots(x, p)
-        out.append(
-            (
-                f"PiecewiseSampler, 1000 {label} knots",
-                pw.draw,
-                "np.interp(u, p, x)",
-                lambda n, r, p=p, x=x: np.interp(r.random(n), p, x),
-                True,
-            )
-        )
-
     for family, (params, frozen) in PARAMETRIC.items():
-        ps = sw.ParametricSampler(family, params)
-        out.append(
+        cases.append(
             (
                 f"ParametricSampler {family}",
-                ps.draw,
+                sw.ParametricSampler(family, params).draw,
                 "scipy frozen .rvs",
                 lambda n, r, f=frozen: f.rvs(size=n, random_state=r),
-                False,
             )
         )
-
-    tail_data = g.lognormal(1.0, 0.8, 10_000)
-    spliced = sw.fit(tail_data, "spliced")
-    tail_emp = sw.EmpiricalSampler(tail_data)
-    out.append(
-        ("spliced (empirical body + GPD)", spliced.draw, "EmpiricalSampler", tail_emp.draw, False)
-    )
+    out = []
+    for label, ours, base_label, base in cases:
+        t = _pair(ours, base, n_draws, repeat)
+        out.append(
+            row(
+                f"{label}, {n_draws:.0e} draws",
+                base_label,
+                t["ratio"],
+                "~1 (parity)",
+                ours_s=t["candidate_s"],
+                baseline_s=t["baseline_s"],
+            )
+        )
     return out
 
 
-def sizes(text: str) -> list[int]:
-    return [int(float(v)) for v in text.split(",") if v.strip()]
+def rows(
+    quick: bool,
+    n_draws: int | None = None,
+    n_knots: int | None = None,
+    repeat: int | None = None,
+) -> list[dict[str, Any]]:
+    """Every row; quick: 1e6 draws, 1e5 knots, 2 pairs (seconds), else 1e7, 1e6, 5 pairs."""
+    n = n_draws or (1_000_000 if quick else 10_000_000)
+    k = n_knots or (100_000 if quick else 1_000_000)
+    r = repeat or (2 if quick else 5)
+    out = _piecewise_rows(n, k, r) + _other_rows(n, r)
+    for res in out:
+        print(
+            f"  {res['name']:<48} ours {res['ours_s'] * 1e3:8.1f} ms  {res['baseline']:<34}"
+            f" {res['baseline_s'] * 1e3:8.1f} ms  ratio {res['ratio']:.3f}",
+            flush=True,
+        )
+    return out
 
 
-def main() -> None:
+def main(argv: list[str] | None = None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument(
-        "--sizes",
-        type=sizes,
-        default=[1_000_000, 10_000_000],
-        help="comma-separated draw counts (default 1e6,1e7)",
+    ap.add_argument("--quick", action="store_true", help="1e6 draws, 1e5 knots, 2 pairs")
+    ap.add_argument("--draws", type=float, default=None, help="draws per call (default 1e7)")
+    ap.add_argument("--knots", type=float, default=None, help="piecewise knots (default 1e6)")
+    ap.add_argument("--repeat", type=int, default=None, help="timed A B pairs (default 5)")
+    args = ap.parse_args(argv)
+    got = rows(
+        args.quick,
+        None if args.draws is None else int(args.draws),
+        None if args.knots is None else int(args.knots),
+        args.repeat,
     )
-    ap.add_argument(
-        "--repeat", type=int, default=5, help="timed calls per figure, median (default 5)"
-    )
-    ap.add_argument("--seed", type=int, default=0, help="seed of data and draws (default 0)")
-    args = ap.parse_args()
-
-    rows = cases(args.seed)
-    for _, ours, _, base, _ in rows:  # warm-up: first-call imports and caches, untimed
-        ours(1000, np.random.default_rng(args.seed))
-        base(1000, np.random.default_rng(args.seed))
-
-    print(
-        f"million draws per second, median of {args.repeat}; baseline measured in the same run; "
-        "speed ratio = ours / baseline (> 1: ours faster)"
-    )
-    for n in args.sizes:
-        print(f"n = {n:.0e}")
-        print(f"  {'ours':<38}{'Mdraws/s':>9}   {'baseline':<24}{'Mdraws/s':>9}{'ratio':>8}")
-        for label, ours, base_label, base, compare in rows:
-            r_ours, r_base, diff = rates(ours, base, n, args.repeat, args.seed)
-            note = f"   max |diff| {diff:.1e}" if compare else ""
-            print(
-                f"  {label:<38}{r_ours:>9.1f}   {base_label:<24}{r_base:>9.1f}"
-                f"{r_ours / r_base:>8.2f}{note}",
-                flush=True,
-            )
+    print("time ratio = ours / baseline, median of A B pairs (< 1: ours faster)")
+    for r in got:
+        print(f"{r['name']} | {r['baseline']} | {r['ratio']:.3f} | {r['target']}")
 
 
 if __name__ == "__main__":

@@ -10,10 +10,14 @@
 #
 # This entry file builds the plan (every key and path, at parse time) and includes one rule file
 # per stage from rules/ beside it:
-#     intake.smk   sw_fingerprint (checkpoint, for data made by the workflow), sw_snapshot
+#     intake.smk   sw_fingerprint (checkpoint, for data made by the workflow), sw_snapshot,
+#                  sw_table_snapshot (joint inputs; truncation / interval columns)
+#     elicit.smk   sw_elicit (quantiles and three_points datasets: no data file)
 #     fit.smk      sw_fit, sw_knots
 #     select.smk   sw_select
 #     draw.smk     sw_draw
+#     resample.smk sw_intervals (bootstrap intervals), sw_replicates (parameter replicates)
+#     joint.smk    sw_fit_joint, sw_joint_draw
 #     check.smk    sw_check
 # Store paths come from the plan's layout (samplewright.store.layout), never spelled here.
 #
@@ -33,7 +37,10 @@ SW = _sw_helpers.register(
 
 
 include: "rules/intake.smk"
+include: "rules/elicit.smk"
 include: "rules/fit.smk"
 include: "rules/select.smk"
 include: "rules/draw.smk"
+include: "rules/resample.smk"
+include: "rules/joint.smk"
 include: "rules/check.smk"

@@ -7,6 +7,8 @@ import datetime as dt
 import errno
 import importlib
 import json
+import subprocess
+import sys
 import types
 from collections.abc import Callable
 from pathlib import Path
@@ -137,12 +139,18 @@ def test_content_hash_depends_on_what_is_hashed(tmp_path: Path) -> None:
 
 
 def test_content_hash_follows_the_documented_construction(tmp_path: Path) -> None:
-    """content_hash is sha256 over the prefix, payload columns and sorted-key JSON (README)."""
-    import hashlib
+    """content_hash is BLAKE3 over the prefix, payload columns and sorted-key JSON (README);
+    the record hash covers the rest of the JSON, not the payload a second time."""
+    import blake3
 
+    # source: BLAKE3 reference test vectors (test_vectors.json, input length 0), from memory
+    empty = "af1349b9f5f9a1a6a0404dea36dcc9499bcb25c9adc112b7cc9a93cae41f3262"
+    assert blake3.blake3(b"").hexdigest() == empty
     s = SAMPLERS["empirical_weighted"]()
     meta = write_sampler(s, tmp_path / "a.parquet", fingerprint="ab" * 32)
-    h = hashlib.sha256(b"samplewright-content-v1")  # source: README "Artifact format"
+    # Changed from sha256 "samplewright-content-v1" with the BLAKE3 change (issue 10): the
+    # pinned construction is the new one.
+    h = blake3.blake3(b"samplewright-content-v2")  # source: README "Artifact format"
     for name, arr in s.payload().items():
         h.update(f"|{name}|{arr.size}|".encode() + np.asarray(arr, "<f8").tobytes())
     doc = {
@@ -150,8 +158,12 @@ def test_content_hash_follows_the_documented_construction(tmp_path: Path) -> Non
         for k in ("format_version", "sampler", "fingerprint", "key", "data", "diagnostics")
     }
     h.update(json.dumps(doc, sort_keys=True, separators=(",", ":")).encode())
-    assert meta["content_hash"] == "sha256:" + h.hexdigest()
+    assert meta["content_hash"] == "blake3:" + h.hexdigest()
     assert content_hash(s.payload(), meta) == meta["content_hash"]
+    rest = {k: v for k, v in meta.items() if k != "record_hash"}
+    record = blake3.blake3(b"samplewright-record-v2")  # source: README "Artifact format"
+    record.update(json.dumps(rest, sort_keys=True, separators=(",", ":")).encode())
+    assert meta["record_hash"] == "blake3:" + record.hexdigest()
 
 
 def test_metadata_is_one_plain_json_key(tmp_path: Path) -> None:
@@ -271,7 +283,7 @@ def test_removed_payload_column_is_detected(tmp_path: Path) -> None:
             lambda m: m["provenance"].update(created_at="1999-01-01T00:00:00+00:00"),
             "record hash mismatch",
         ),
-        (lambda m: m.update(content_hash="sha256:" + "0" * 64), "content hash mismatch"),
+        (lambda m: m.update(content_hash="blake3:" + "0" * 64), "content hash mismatch"),
         (lambda m: m.pop("record_hash"), "record hash mismatch"),
     ],
     ids=[
@@ -365,10 +377,113 @@ def test_unknown_kind_with_valid_hashes_is_refused(tmp_path: Path) -> None:
     meta["sampler"]["kind"] = "future-kind"
     payload = {n: table.column(n).to_numpy() for n in table.column_names}
     meta["content_hash"] = content_hash(payload, meta)
-    meta["record_hash"] = art._record_hash(payload, meta)
+    meta["record_hash"] = art._record_hash(meta)
     _rewrite(path, table, meta)
     with pytest.raises(ArtifactError, match="unknown sampler kind 'future-kind'"):
         load_sampler(path)
+
+
+def test_sha256_artifacts_of_the_first_format_are_refused_in_one_line(tmp_path: Path) -> None:
+    """An artifact whose hashes are sha256 (written before the BLAKE3 change) is refused as
+    written by an older samplewright, not reported as altered."""
+    path = tmp_path / "k.parquet"
+    write_sampler(SAMPLERS["knots"](), path)
+    meta = _meta(path)
+    meta["content_hash"] = "sha256:" + "0" * 64
+    _rewrite(path, pq.read_table(path), meta)
+    with pytest.raises(ArtifactError, match="older samplewright .sha256") as info:
+        load_sampler(path)
+    assert not isinstance(info.value, IntegrityError)
+
+
+@pytest.mark.parametrize(
+    ("table", "message"),
+    [
+        (pa.table({"value": pa.array([1, 2, 3], pa.int64())}), "'value' is int64, expected"),
+        (pa.table({"value": pa.array([1.0, None, 3.0])}), "'value' holds 1 null"),
+        (
+            pa.Table.from_arrays([pa.array([1.0]), pa.array([2.0])], names=["value", "value"]),
+            "names repeat",
+        ),
+    ],
+    ids=["int", "null", "repeated"],
+)
+def test_payload_columns_that_are_not_plain_doubles_are_refused(
+    tmp_path: Path, table: pa.Table, message: str
+) -> None:
+    """A payload column of another type, with nulls, or a repeated name is a one-line error."""
+    path = tmp_path / "e.parquet"
+    write_sampler(SAMPLERS["empirical"](), path)
+    _rewrite(path, table, _meta(path))
+    with pytest.raises(ArtifactError, match=f"payload column.*{message}"):
+        load_sampler(path)
+
+
+def test_payload_in_many_row_groups_loads_in_order(tmp_path: Path) -> None:
+    """A payload stored in many row groups (decoded in parallel) loads value for value."""
+    path = tmp_path / "w.parquet"
+    s = SAMPLERS["empirical_weighted"]()
+    write_sampler(s, path)
+    table = pq.read_table(path)
+    many = tmp_path / "many.parquet"
+    pq.write_table(
+        table.replace_schema_metadata({METADATA_KEY: _raw(path)}), many, row_group_size=7
+    )
+    assert pq.read_metadata(many).num_row_groups == 9  # 60 rows in groups of 7
+    back = load_sampler(many)
+    for name, arr in s.payload().items():
+        np.testing.assert_array_equal(back.payload()[name], arr)
+
+
+def test_loading_hashes_the_payload_once(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """load_sampler feeds the payload to the hash once (the record hash covers only JSON)."""
+    import blake3
+
+    path = tmp_path / "e.parquet"
+    values = np.random.default_rng(5).normal(size=50_000)  # demo data
+    write_sampler(EmpiricalSampler(values), path)
+    hashed: list[int] = []
+
+    class Counting:
+        AUTO = blake3.blake3.AUTO
+
+        def __init__(self, data: bytes = b"", max_threads: int = 1) -> None:
+            self._h = blake3.blake3(data, max_threads=max_threads)
+            hashed.append(len(data))
+
+        def update(self, data: object) -> None:
+            hashed.append(memoryview(data).nbytes)  # type: ignore[arg-type]
+            self._h.update(data)
+
+        def hexdigest(self) -> str:
+            return str(self._h.hexdigest())
+
+    monkeypatch.setattr(art, "blake3", types.SimpleNamespace(blake3=Counting))
+    load_sampler(path)
+    payload_bytes = values.size * 8
+    assert payload_bytes <= sum(hashed) < payload_bytes + 10_000
+
+
+def test_loading_and_verifying_import_no_scipy_or_pandas(tmp_path: Path) -> None:
+    """Writing, loading and verifying empirical and knots artifacts (and `samplewright verify`)
+    load neither scipy nor pandas."""
+    code = (
+        "import sys\n"
+        "from samplewright.distributions.empirical import EmpiricalSampler\n"
+        "from samplewright.distributions.piecewise import from_knots\n"
+        "from samplewright.store.artifacts import load_sampler, verify_artifact, write_sampler\n"
+        "from samplewright.pipeline.cli.main import main\n"
+        "e, k = sys.argv[1] + '/e.parquet', sys.argv[1] + '/k.parquet'\n"
+        "write_sampler(EmpiricalSampler([3.0, 1.0, 2.0]), e)\n"
+        "write_sampler(from_knots([0, 1], [0, 1]), k)\n"
+        "load_sampler(e).draw(5, rng=1); load_sampler(k).draw(5, rng=1); verify_artifact(e)\n"
+        "assert main(['verify', e, k]) == 0\n"
+        "print(sorted(m for m in ('scipy', 'pandas') if m in sys.modules), file=sys.stderr)\n"
+    )
+    proc = subprocess.run(
+        [sys.executable, "-c", code, str(tmp_path)], capture_output=True, text=True, check=True
+    )
+    assert proc.stderr.strip() == "[]"
 
 
 # --- atomic writes ---------------------------------------------------------------------------

@@ -54,6 +54,8 @@ def _subcommands() -> list[str]:
 def test_documented_subcommands_exist() -> None:
     """Every subcommand the README documents is in the parser."""
     assert {"fit", "knots", "draw", "show", "verify", "fingerprint"} <= set(_subcommands())
+    # the commands of the resampling, joint-input and expert-judgement stages
+    assert {"fit-joint", "elicit", "interval", "replicate", "snapshot-table"} <= set(_subcommands())
 
 
 @pytest.mark.parametrize("command", _subcommands())

@@ -13,7 +13,7 @@ import pytest
 from samplewright.core.canonical import canonical_json
 from samplewright.core.errors import MethodError
 from samplewright.core.randomness import stream_rng
-from samplewright.pipeline.cli_resample import add_commands
+from samplewright.pipeline.cli.resample import add_commands
 from samplewright.resample.intervals import bootstrap_interval
 
 # invented daily counts with serial dependence (an AR(1) level) and repair hours

@@ -1,4 +1,4 @@
-"""Unit tests for samplewright.fitting.copulas: fitting elliptical copulas and dependent uniforms."""
+"""Unit tests for fitting.copulas: fitting elliptical copulas and dependent uniforms."""
 
 from __future__ import annotations
 

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import json
 import os
+import subprocess
+import sys
 from pathlib import Path
 
 import numpy as np
@@ -13,6 +15,7 @@ import pyarrow.parquet as pq
 import pytest
 
 import samplewright.intake.columns as intake_mod
+import samplewright.store.fingerprints as fps
 from samplewright.core.errors import InputDataError
 from samplewright.store.fingerprints import fingerprint_arrays, fingerprint_file
 
@@ -111,10 +114,48 @@ def test_negative_zero_and_dtype_do_not_matter() -> None:
     )
 
 
-def test_fingerprint_is_a_hex_sha256() -> None:
-    """A fingerprint is 64 lowercase hex digits."""
-    fp = fingerprint_arrays(VALUES)
+def test_fingerprint_follows_the_documented_construction() -> None:
+    """A fingerprint is the hex BLAKE3 of the prefix and, per role, ``|role|length|`` and the
+    BLAKE3 digest of the values as little-endian float64 with -0.0 written as 0.0 (README
+    "Fingerprints"), also across the chunks the values are checked and hashed in."""
+    import blake3
+
+    # source: BLAKE3 reference test vectors (test_vectors.json, input length 0), from memory
+    empty = "af1349b9f5f9a1a6a0404dea36dcc9499bcb25c9adc112b7cc9a93cae41f3262"
+    assert blake3.blake3(b"").hexdigest() == empty
+    n = 2 * fps._CHUNK + 3  # crosses two chunk boundaries
+    values = np.random.default_rng(13).normal(size=n)  # demo data
+    values[[0, fps._CHUNK, n - 1]] = -0.0
+    weights = np.arange(1, n + 1)
+    # Changed from sha256 "samplewright-fingerprint-v1" with the BLAKE3 change (issue 10,
+    # SNAPSHOT_FORMAT_VERSION 2): the pinned construction is the new one.
+    h = blake3.blake3(b"samplewright-fingerprint-v2")  # source: README "Fingerprints"
+    h.update(f"|value|{n}|".encode() + _digest(values + 0.0))
+    h.update(f"|weight|{n}|".encode() + _digest(weights))
+    fp = fingerprint_arrays(values, weights)
+    assert fp == h.hexdigest()
     assert len(fp) == 64 and set(fp) <= set("0123456789abcdef")
+    with_nan = np.array([1.0, np.nan, 2.0])
+    h = blake3.blake3(b"samplewright-fingerprint-v2")
+    h.update(b"|value|3|" + _digest(with_nan + 0.0))
+    assert fingerprint_arrays(with_nan) == h.hexdigest()
+
+
+def _digest(values: np.ndarray) -> bytes:
+    import blake3
+
+    return bytes(blake3.blake3(np.asarray(values, "<f8").tobytes()).digest())
+
+
+def test_layout_and_byte_order_of_the_array_do_not_matter() -> None:
+    """A strided view, a big-endian copy and a 2-d array of the same values hash alike."""
+    base = np.random.default_rng(14).normal(size=2 * fps._CHUNK + 10)  # demo data
+    ref = fingerprint_arrays(base)
+    wide = np.repeat(base, 2)[::2]
+    assert not wide.flags.c_contiguous
+    assert fingerprint_arrays(wide) == ref
+    assert fingerprint_arrays(base.astype(">f8")) == ref
+    assert fingerprint_arrays(base.reshape(2, -1)) == ref
 
 
 def test_cleaning_policy_is_applied_before_hashing(tmp_path: Path) -> None:
@@ -313,3 +354,136 @@ def test_a_wrong_entry_is_dropped_by_the_snapshot_job(
     # source: the values as pandas reads them, hashed without the memo
     values = pd.read_csv("repairs.csv", float_precision="round_trip")["hours"].to_numpy()
     assert Plan(config).fingerprint("h") == right == fingerprint_arrays(values)
+
+
+def _modules_after(code: str, *args: str) -> list[str]:
+    """The heavy libraries a fresh interpreter has loaded after running ``code``."""
+    probe = (
+        f"{code}\n"
+        "import sys\n"
+        "heavy = ('scipy', 'pandas', 'pyarrow', 'matplotlib')\n"
+        "print(','.join(m for m in heavy if m in sys.modules), file=sys.stderr)\n"
+    )
+    proc = subprocess.run(
+        [sys.executable, "-c", probe, *args], capture_output=True, text=True, check=True
+    )
+    return [m for m in proc.stderr.strip().split(",") if m]
+
+
+def test_a_memo_hit_imports_no_reader(tmp_path: Path, csv_file: Path) -> None:
+    """Answering from the memo loads neither pyarrow, pandas nor scipy (planning stays light)."""
+    cache = tmp_path / "cache"
+    first = fingerprint_file(csv_file, "hours", cache_dir=cache)
+    code = (
+        "import sys\n"
+        "from samplewright.store.fingerprints import fingerprint_file\n"
+        "assert fingerprint_file(sys.argv[1], 'hours', cache_dir=sys.argv[2]) == sys.argv[3]"
+    )
+    assert _modules_after(code, str(csv_file), str(cache), first) == []
+
+
+def test_fingerprint_and_snapshot_commands_import_no_scipy(tmp_path: Path) -> None:
+    """`samplewright fingerprint` and `samplewright snapshot` of a Parquet column load no scipy."""
+    par = tmp_path / "repairs.parquet"
+    pq.write_table(pa.table({"hours": VALUES}), par)
+    code = (
+        "import sys\n"
+        "from samplewright.pipeline.cli.main import main\n"
+        "p, out = sys.argv[1], sys.argv[2]\n"
+        "assert main(['fingerprint', p, '-c', 'hours']) == 0\n"
+        "assert main(['snapshot', p, '-c', 'hours', '--out', out]) == 0"
+    )
+    assert "scipy" not in _modules_after(code, str(par), str(tmp_path / "snap.parquet"))
+
+
+# --- the streamed Parquet path gives what the reader gives (issue 10) --------------------------
+
+
+def _groups(path: Path, x: np.ndarray | pa.Array, **kw: object) -> None:
+    """One column 'x' in row groups of 50 rows, without dictionary pages."""
+    pq.write_table(pa.table({"x": x}), path, row_group_size=50, use_dictionary=False, **kw)
+
+
+def _overwrite(path: Path, old: float, new: float) -> None:
+    """Overwrite one stored double in place (the footer statistics are left as they were)."""
+    raw = bytearray(path.read_bytes())
+    pos = bytes(raw).find(np.float64(old).tobytes())
+    raw[pos : pos + 8] = np.float64(new).tobytes()
+    path.write_bytes(bytes(raw))
+
+
+def _damaged_stats(path: Path) -> None:
+    """Row groups of 50 values; value 101 (inside a group, so not in any page statistics)
+    overwritten in place by 1e300, beyond the bounds its group's footer records."""
+    _groups(path, np.linspace(1.0, 9.0, 500), compression="none")
+    _overwrite(path, np.linspace(1.0, 9.0, 500)[101], 1e300)
+
+
+def _flipped_page(path: Path) -> None:
+    """Page checksums written; one bit of the stored value 501.0 flipped afterwards."""
+    _groups(path, np.arange(1000.0), compression="none", write_page_checksum=True)
+    raw = bytearray(path.read_bytes())
+    raw[bytes(raw).find(np.float64(501.0).tobytes())] ^= 1
+    path.write_bytes(bytes(raw))
+
+
+def _signed_zeros(path: Path) -> None:
+    x = np.random.default_rng(15).normal(size=333)  # demo data
+    x[[3, 120, 300]] = -0.0
+    _groups(path, x)
+
+
+PARQUET_CASES = {
+    "positive": lambda p: _groups(p, VALUES),
+    "negative": lambda p: _groups(p, -VALUES),
+    "signed-zeros": _signed_zeros,
+    "one-group": lambda p: pq.write_table(pa.table({"x": VALUES}), p),
+    "nan": lambda p: _groups(p, np.where(np.arange(200) == 170, np.nan, np.arange(200.0))),
+    "inf": lambda p: _groups(p, np.where(np.arange(200) == 70, np.inf, np.arange(200.0))),
+    "null": lambda p: _groups(p, pa.array([1.0, None] * 60)),
+    "float32": lambda p: _groups(p, VALUES.astype(np.float32)),
+    "int64": lambda p: _groups(p, np.arange(120)),
+    "damaged-statistics": _damaged_stats,
+    "damaged-page": _flipped_page,
+    "truncated": lambda p: p.write_bytes(b"PAR1" + b"\0" * 40),
+    "empty": lambda p: pq.write_table(pa.table({"x": pa.array([], pa.float64())}), p),
+    "no-column": lambda p: pq.write_table(pa.table({"y": VALUES}), p),
+    "twice": lambda p: pq.write_table(
+        pa.Table.from_arrays([pa.array(VALUES), pa.array(VALUES)], names=["x", "x"]), p
+    ),
+}
+
+
+@pytest.mark.parametrize("policy", ["error", "drop"])
+@pytest.mark.parametrize("case", list(PARQUET_CASES))
+def test_parquet_fingerprint_is_that_of_what_the_reader_reads(
+    tmp_path: Path, case: str, policy: str
+) -> None:
+    """For clean and damaged Parquet columns alike, fingerprint_file gives the fingerprint of
+    what read_column reads, or the very error read_column raises."""
+    from samplewright.store.fingerprints import fingerprint_column
+
+    path = tmp_path / "d.parquet"
+    PARQUET_CASES[case](path)
+    opts = {"missing": policy, "infinite": policy}
+    # source: intake's own reader, the reference the streamed path must agree with
+    try:
+        expected = fingerprint_column(intake_mod.read_column(path, "x", **opts))  # type: ignore[arg-type]
+    except InputDataError as exc:
+        with pytest.raises(InputDataError) as info:
+            fingerprint_file(path, "x", **opts)
+        assert str(info.value) == str(exc)
+    else:
+        assert fingerprint_file(path, "x", **opts) == expected
+
+
+def test_clean_parquet_is_streamed_without_the_reader(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A clean float64 Parquet column is fingerprinted row group by row group, without
+    read_column, to the fingerprint of its values."""
+    path = tmp_path / "d.parquet"
+    _signed_zeros(path)
+    monkeypatch.setattr(intake_mod, "read_column", _fail_read)
+    x = pq.read_table(path).column("x").to_numpy()
+    assert fingerprint_file(path, "x") == fingerprint_arrays(x)

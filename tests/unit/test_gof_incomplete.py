@@ -153,7 +153,7 @@ def test_a_wrong_family_is_rejected_and_the_right_one_is_not() -> None:
         ),
         ({"censor_at": ["a", 1, 1, 1]}, "censor_at: expected numbers"),
         ({"n_resamples": -1}, "n_resamples: expected an integer >= 0, found -1"),
-        ({"shape": 1.0}, "unknown option 'shape' for weibull (allowed: loc)"),
+        ({"colour": 1.0}, "unknown option 'colour' for weibull (allowed: loc, scale, shape)"),
         ({"inspection": [4.0]}, "inspection: the rows have interval end 3.0"),
         ({"inspection": [3.0, INF]}, "inspection: expected finite inspection points"),
     ],

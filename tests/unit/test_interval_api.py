@@ -168,8 +168,8 @@ def test_drift_check_spares_identified_fits() -> None:
             "option 'loc' of gamma: expected a number, found '0'",
         ),
         (
-            lambda: fit_truncated([1.0, 2.0], "gamma", shape=2.0),
-            "unknown option 'shape' for gamma (allowed: loc)",
+            lambda: fit_truncated([1.0, 2.0], "gamma", colour=2.0),
+            "unknown option 'colour' for gamma (allowed: loc, scale, shape)",
         ),
         (
             lambda: fit_truncated([1.0, 2.0], "turnbull", loc=1.0),

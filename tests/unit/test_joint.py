@@ -369,8 +369,8 @@ def test_fit_joint_bad_values_named_by_column_and_row() -> None:
 
 def test_a_marginal_fit_error_names_its_column() -> None:
     """A marginal's own fit error keeps its message and gains a note naming the column."""
-    with pytest.raises(MethodError, match="unknown option 'shape'") as info:
-        fit_joint(_data(50), {"hours": {"method": "gamma", "shape": 2}, "cost": "gamma"})
+    with pytest.raises(MethodError, match="unknown option 'colour'") as info:
+        fit_joint(_data(50), {"hours": {"method": "gamma", "colour": 2}, "cost": "gamma"})
     assert "column 'hours'" in " ".join(info.value.__notes__)
 
 

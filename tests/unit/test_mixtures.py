@@ -1,4 +1,4 @@
-"""Unit tests of samplewright.fitting.mixtures: EM fits, BIC choice, collapse guard, cdf/quantile."""
+"""Unit tests of fitting.mixtures: EM fits, BIC choice, collapse guard, cdf/quantile."""
 
 from __future__ import annotations
 

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 
 from samplewright.core.errors import FitError
-from samplewright.resample.replicates import ReplicatesResult, parametric_replicates
+from samplewright.resample.replicates import MIN_BATCHES, ReplicatesResult, parametric_replicates
 
 
 def _simulate(shape: tuple[int, int], gen: np.random.Generator) -> np.ndarray:
@@ -91,3 +91,71 @@ def test_replicate_means_spread_like_the_sampling_distribution() -> None:
     # sd of a mean of n iid values is sigma / sqrt(n) (common practice, no source);
     # the sd of 4000 replicates is within 5% of it with probability above 0.998
     assert out.values[:, 0].std() == pytest.approx(2.0 / np.sqrt(50), rel=0.05)
+
+
+def test_declined_rows_are_evaluated_one_by_one_and_their_failures_counted() -> None:
+    """Rows the batch evaluation answers with NaN go to the row evaluation, which may fail."""
+    seen: list[float] = []
+
+    def whole(sims: np.ndarray) -> np.ndarray:
+        out = np.stack([sims.mean(axis=1), sims.std(axis=1)], axis=1)
+        out[sims.mean(axis=1) > 2.0] = np.nan  # declined
+        return out
+
+    def picky(r: np.ndarray) -> np.ndarray:
+        seen.append(float(r.mean()))
+        if r.mean() > 2.2:
+            raise FitError("test: refused on purpose")
+        return _mean_and_sd(r)
+
+    kwargs = {"size": 10, "n_resamples": 300, "n_statistics": 2, "rng": 4}
+    out = parametric_replicates(_simulate, picky, evaluate_batch=whole, **kwargs)  # type: ignore[arg-type]
+    assert len(seen) == 300 - out.n_batched and all(m > 2.0 for m in seen)
+    plain = parametric_replicates(_simulate, picky, **kwargs)  # type: ignore[arg-type]
+    assert out.n_batched == int(np.sum(plain.values[:, 0] <= 2.0))
+    assert out.n_failed == plain.n_failed > 0
+    np.testing.assert_allclose(out.values, plain.values, rtol=1e-13)
+
+
+def test_worker_threads_do_not_change_the_results() -> None:
+    """One worker or two: the same replicates, statistics, failures and batch counts."""
+
+    def whole(sims: np.ndarray) -> np.ndarray:
+        out = np.stack([sims.mean(axis=1), sims.std(axis=1)], axis=1)
+        out[::7] = np.nan
+        return out
+
+    def picky(r: np.ndarray) -> np.ndarray:
+        if r.mean() > 2.3:
+            raise FitError("test: refused on purpose")
+        return _mean_and_sd(r)
+
+    runs = [
+        parametric_replicates(
+            _simulate,
+            picky,
+            evaluate_batch=whole,
+            size=25,
+            n_resamples=203,
+            n_statistics=2,
+            rng=9,
+            batch=250,
+            workers=w,
+        )
+        for w in (1, 2, 3)
+    ]
+    for other in runs[1:]:
+        np.testing.assert_array_equal(other.values, runs[0].values)
+        assert (other.n_failed, other.n_batched) == (runs[0].n_failed, runs[0].n_batched)
+
+
+def test_replicates_are_split_into_enough_batches_for_the_workers() -> None:
+    """Even when one batch would hold them all, the replicates come in MIN_BATCHES batches."""
+    shapes: list[tuple[int, int]] = []
+
+    def simulate(shape: tuple[int, int], gen: np.random.Generator) -> np.ndarray:
+        shapes.append(shape)
+        return gen.exponential(2.0, shape)
+
+    parametric_replicates(simulate, _mean_and_sd, size=10, n_resamples=99, n_statistics=2, rng=1)
+    assert len(shapes) == MIN_BATCHES and sum(b for b, _ in shapes) == 99

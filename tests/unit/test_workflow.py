@@ -25,7 +25,7 @@ def data_dir(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
     return tmp_path
 
 
-STAGES = ("intake", "fit", "select", "draw", "check")
+STAGES = ("intake", "elicit", "fit", "select", "draw", "resample", "joint", "check")
 
 
 def _cfg(**dataset: object) -> dict:
@@ -68,11 +68,11 @@ def test_defaults_are_filled(data_dir: Path) -> None:
                     "hours": {
                         "path": "d.csv",
                         "column": "hours",
-                        "methods": [{"method": "gamma", "options": {"shape": 2}}],
+                        "methods": [{"method": "gamma", "options": {"colour": 2}}],
                     }
                 }
             },
-            "samplewright.datasets.hours.methods[0].options: unknown option 'shape' for gamma",
+            "samplewright.datasets.hours.methods[0].options: unknown option 'colour' for gamma",
         ),
         (
             {
@@ -231,10 +231,16 @@ def test_entry_rule_file_includes_one_file_per_stage() -> None:
     for rule in (
         "sw_fingerprint",
         "sw_snapshot",
+        "sw_table_snapshot",
+        "sw_elicit",
         "sw_fit",
         "sw_knots",
         "sw_select",
         "sw_draw",
+        "sw_intervals",
+        "sw_replicates",
+        "sw_fit_joint",
+        "sw_joint_draw",
         "sw_check",
     ):
         defined = re.findall(rf"^(?:rule|checkpoint) {rule}:$", text, flags=re.M)
@@ -261,7 +267,20 @@ def test_every_rule_is_thin_logged_and_constrained() -> None:
 def test_rule_files_spell_no_store_path() -> None:
     """Store sub-paths come from the plan's layout: no rule file spells one."""
     for name, text in _rule_files().items():
-        for sub in ("columns/", "samplers/", "selected/", "draws/", "checks/", "produced/"):
+        for sub in (
+            "columns/",
+            "samplers/",
+            "selected/",
+            "draws/",
+            "checks/",
+            "produced/",
+            "tables/",
+            "intervals/",
+            "replicates/",
+            "joint/",
+            "joint_draws/",
+            "reports/",
+        ):
             assert sub not in text, (name, sub)
         assert "logs/" not in text and "benchmarks/" not in text, name
         assert "SW.path(" not in text, name
@@ -290,7 +309,21 @@ def _string_constants(path: Path) -> list[str]:
 def test_only_the_layout_module_spells_store_paths() -> None:
     """No module spells a store sub-path in its code; the layout module names every folder."""
     pkg = Path(helpers.__file__).resolve().parents[1]
-    folders = ("columns", "samplers", "selected", "draws", "checks", "produced", "logs")
+    folders = (
+        "columns",
+        "samplers",
+        "selected",
+        "draws",
+        "checks",
+        "produced",
+        "logs",
+        "tables",
+        "intervals",
+        "replicates",
+        "joint",
+        "joint_draws",
+        "reports",
+    )
     pattern = re.compile(rf"\b({'|'.join(folders)}|benchmarks)/")
     spelled = {
         str(path.relative_to(pkg))

@@ -2,7 +2,8 @@
 
 
 rule sw_draw:
-    """A Parquet file of draws (column 'value') for consumers outside Python."""
+    """A Parquet file of draws (column 'value') for consumers outside Python; uniforms from the
+    dataset's sequence (random, or a scrambled quasi-random one)."""
     input:
         lambda wc: ancient(SW.selected_path(wc.dataset)),
     output:
@@ -14,8 +15,10 @@ rule sw_draw:
         results_version=SW.results_version,
         n=lambda wc: SW.datasets[wc.dataset]["draws"],
         seed=SW.root_seed,
+        sequence=lambda wc: SW.datasets[wc.dataset]["sequence"],
     log:
         SW.layout.log("draw", "{dataset}", "{key}"),
     shell:
         "samplewright draw {input:q} -n {params.n} --seed {params.seed}"
-        " --stream {wildcards.dataset} --stream draws --out {output:q} > {log:q} 2>&1"
+        " --stream {wildcards.dataset} --stream draws --sequence {params.sequence}"
+        " --out {output:q} > {log:q} 2>&1"

@@ -2,13 +2,14 @@
 
 
 rule sw_fit:
-    """Fit one candidate method to one dataset's snapshot."""
+    """Fit one candidate method to one dataset's snapshot (a column, or a table of columns by
+    role for truncated and interval data)."""
     input:
         lambda wc: ancient(SW.snapshot_path(wc.dataset)),
     output:
         SW.layout.sampler("{dataset}", "{label}", "{key}"),
     wildcard_constraints:
-        dataset=SW.dataset_pattern,
+        dataset=SW.data_pattern,
         label=SW.label_pattern,
         key=SW.key_pattern,
     params:
@@ -35,7 +36,7 @@ rule sw_knots:
     output:
         SW.layout.sampler("{dataset}", "knots", "{key}"),
     wildcard_constraints:
-        dataset=SW.dataset_pattern,
+        dataset=SW.knots_pattern,
         key=SW.key_pattern,
     params:
         results_version=SW.results_version,

@@ -46,3 +46,29 @@ rule sw_snapshot:
     shell:
         "samplewright snapshot {input:q} {params.args} --expect-fingerprint {wildcards.fp}"
         " --cache-dir {params.cache:q} --out {output:q} > {log:q} 2>&1"
+
+
+rule sw_table_snapshot:
+    """Several row-aligned columns (a joint input, or a dataset's truncation / interval
+    columns), cleaned row by row and stored under their fingerprint."""
+    input:
+        lambda wc: ancient(SW.table_source(wc.name)),
+    output:
+        SW.layout.table_snapshot("{name}", "{fp}"),
+    wildcard_constraints:
+        name=SW.table_pattern,
+        fp=SW.key_pattern,
+    params:
+        snapshot_version=SW.snapshot_version,
+        args=lambda wc: SW.table_snapshot_args(wc.name),
+        cache=lambda wc: SW.layout.root,
+    log:
+        SW.layout.log("table_snapshot", "{name}", "{fp}"),
+    benchmark:
+        SW.layout.benchmark("table_snapshot", "{name}", "{fp}")
+    resources:
+        mem_mb=lambda wc, input: SW.snapshot_mem_mb(input[0], input.size_mb),
+        runtime=10,
+    shell:
+        "samplewright snapshot-table {input:q} {params.args} --expect-fingerprint {wildcards.fp}"
+        " --cache-dir {params.cache:q} --out {output:q} > {log:q} 2>&1"

@@ -62,7 +62,7 @@ from samplewright.core.checks import check_sample
 from samplewright.core.errors import MethodError
 from samplewright.core.randomness import SeedLike
 from samplewright.distributions.families import Family, get_family
-from samplewright.fitting.batch_fits import refit_cdf_rows
+from samplewright.fitting.batch_fits import refit_cdf_rows, sorted_replicate_rows
 from samplewright.fitting.catalog import CATALOG
 from samplewright.fitting.mle import FamilyFitResult, fit_family
 from samplewright.resample.replicates import DEFAULT_BATCH, parametric_replicates
@@ -259,6 +259,10 @@ def _bootstrap(
     lower, upper = (float(e) for e in family.bound(out.params).support())
 
     def simulate(shape: tuple[int, int], gen: np.random.Generator) -> np.ndarray:
+        if resolution is None:  # drawn already sorted where offered (not for rounded ones)
+            rows = sorted_replicate_rows(family.name, out.params, options, shape, gen)
+            if rows is not None:
+                return rows
         sims = family.draw(out.params, shape, gen)
         if resolution is None:
             return sims

@@ -76,11 +76,13 @@ class ParametricSampler(Sampler):
 
     @property
     def mean(self) -> float:
-        return float(self._dist.mean())
+        with np.errstate(over="ignore", invalid="ignore"):  # an overflow is an infinite mean
+            return float(self._dist.mean())
 
     @property
     def var(self) -> float:
-        return float(self._dist.var())
+        with np.errstate(over="ignore", invalid="ignore"):  # an overflow is an infinite variance
+            return float(self._dist.var())
 
     @property
     def support(self) -> tuple[float, float]:

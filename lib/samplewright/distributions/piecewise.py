@@ -76,7 +76,7 @@ class PiecewiseSampler(Sampler):
     def _lookup_tables(self) -> tuple[np.ndarray, ...]:
         """Per-segment rows gathered in one cache line, and the guide table of unequal knots.
 
-        Equal spacing: rows ``(x[j], x[j+1] - x[j])``. Otherwise rows
+        Equal spacing: rows ``(x[j], x[j+1] - x[j])`` and a last row ``(x[m], 0)``. Otherwise rows
         ``(p[k-1], p[k] - p[k-1], x[k-1], x[k] - x[k-1])`` for segments ``k = 1 .. m`` and a guide
         table (Chen & Asau, 1974) over ``K = 2 m`` buckets. With ``c_i = trunc(p[i] K)``, bucket
         ``b`` starts at knot ``g = #{i : c_i < b}`` and holds ``#{i : c_i = b}`` knots; its row is
@@ -89,7 +89,8 @@ class PiecewiseSampler(Sampler):
             x, p = self.x, self.p
             dx = np.diff(x)
             if self._equal:
-                self._tables = (np.stack([x[:-1], dx], axis=1),)
+                # a last row (x[m], 0) answers u = 1 (t = m) without clipping the index
+                self._tables = (np.stack([x, np.append(dx, 0.0)], axis=1),)
             else:
                 m = x.size - 1
                 dp = np.diff(p)
@@ -117,15 +118,15 @@ class PiecewiseSampler(Sampler):
         """Write ``Q(u)`` of checked 1-d probabilities ``u`` into ``out``; ``u`` is overwritten.
 
         Equal to the textbook form ``x0 + (x1 - x0) * (u - p0) / (p1 - p0)`` on the segment of
-        the first knot with ``p >= u`` (bit for bit: the same operations in the same order).
+        the first knot with ``p >= u`` (bit for bit: the same operations in the same order; with
+        equal spacing ``u = 1`` gives the last knot itself).
         """
         tables = self._lookup_tables()
         m = self.x.size - 1
         if self._equal:
-            # segment j = floor(u m) (truncation: u >= 0), blend t - j
+            # segment j = floor(u m) (truncation: u >= 0), blend t - j; j = m only where u m = m
             u *= float(m)
             j = u.astype(np.intp)
-            np.minimum(j, m - 1, out=j)
             u -= j
             row = np.take(tables[0], j, axis=0)
             np.multiply(row[:, 1], u, out=out)

@@ -16,8 +16,15 @@ without the batch path. :func:`fit_rows` does that fallback itself (and fits eve
 family without a batch path one by one); :func:`refit_cdf_rows` leaves declined rows as NaN for
 the caller's own checked path (the replicate engine's row loop).
 
+The fitted CDF values of the sorted rows (:func:`refit_cdf_rows`, what a goodness-of-fit
+bootstrap needs) use the special function at every value except for gamma and, on long rows,
+inverse_gaussian, whose CDFs cost 60-500 ns a value: those are evaluated exactly at every 8th or
+16th value and interpolated between, with an error check that falls back to exact values (within
+about 1e-11 of the exact CDF relative to the nearer tail). :func:`sorted_replicate_rows` draws
+replicates already sorted where that is cheaper than sorting them.
+
 Options: only ``loc`` (a number; default 0) for the positive families, none for normal. Any other
-option, or ``loc="free"``, has no batch path.
+option (a fixed shape or scale), or ``loc="free"``, has no batch path.
 """
 
 from __future__ import annotations
@@ -30,10 +37,25 @@ import numpy as np
 from scipy import special
 
 from samplewright.core.errors import FitError, MethodError
+from samplewright.fitting._batch_numeric import (
+    LONG_ROW,
+    Index,
+    gamma_shape_rows,
+    invgauss_cdf,
+    smooth_cdf_sorted,
+    weibull_shape_rows,
+)
 from samplewright.fitting.catalog import CATALOG
 from samplewright.fitting.mle import fit_family
+from samplewright.fitting.registry import check_options
 
-__all__ = ["BATCH_FAMILIES", "BatchFitResult", "fit_rows", "refit_cdf_rows"]
+__all__ = [
+    "BATCH_FAMILIES",
+    "BatchFitResult",
+    "fit_rows",
+    "refit_cdf_rows",
+    "sorted_replicate_rows",
+]
 
 # families with a batch path, and whether their values must lie strictly above the location
 _STRICT = {
@@ -46,7 +68,7 @@ _STRICT = {
     "rayleigh": False,
 }
 BATCH_FAMILIES: tuple[str, ...] = tuple(_STRICT)
-_WARM = 2048  # longer rows: Newton for the weibull shape first runs on this many order statistics
+_HUGE_SHAPE = 1e6  # a weibull shape beyond this is left to the one-sample fit
 
 Arrays = dict[str, np.ndarray]
 
@@ -80,97 +102,21 @@ class BatchFitResult:
 
 
 # ---------------------------------------------------------------------------------------------
-# the shape equations, one root per row
-
-
-def _gamma_shape_rows(s: np.ndarray) -> np.ndarray:
-    """Solve ``log k - digamma(k) = s`` for each element by the Newton iteration of
-    :func:`samplewright.fitting.optimise.gamma_shape` (Minka's start, the same steps and stop);
-    NaN where it does not stop within its 100 steps (the one-sample fit then decides)."""
-    k = (3.0 - s + np.sqrt((s - 3.0) ** 2 + 24.0 * s)) / (12.0 * s)
-    out = np.full(s.shape, np.nan)
-    todo = np.arange(s.size)
-    for _ in range(100):
-        f = np.log(k) - special.digamma(k) - s[todo]
-        k_new = k - f / (1.0 / k - special.zeta(2.0, k))
-        k_new = np.where(k_new <= 0, k / 2.0, k_new)
-        stop = np.abs(k_new - k) <= 1e-14 * k
-        out[todo[stop]] = k_new[stop]
-        todo, k = todo[~stop], k_new[~stop]
-        if not todo.size:
-            break
-    return out
-
-
-def _weibull_newton(lz: np.ndarray, k: np.ndarray, tol: float, max_iter: int) -> np.ndarray:
-    """Roots ``k`` of ``1/k + mean(lz) - sum(lz e^{k lz}) / sum(e^{k lz}) = 0`` per row (the
-    weibull score with ``lz = log(y / max y) <= 0``), by Newton's method kept inside a bracket.
-
-    The score decreases in ``k`` (its derivative is ``-1/k^2`` minus a weighted variance), so the
-    sign of each evaluation narrows the bracket; a step that leaves it bisects instead. NaN where
-    ``max_iter`` steps do not bring the change below ``tol * k``.
-    """
-    mean_lz = lz.mean(axis=1)
-    lo = np.zeros_like(k)
-    hi = np.full_like(k, np.inf)
-    out = np.full_like(k, np.nan)
-    rows = np.arange(k.size)
-    for _ in range(max_iter):
-        e = np.exp(k[:, None] * lz)
-        s0 = e.sum(axis=1)
-        e *= lz
-        s1 = e.sum(axis=1) / s0
-        s2 = np.einsum("ij,ij->i", e, lz) / s0
-        score = 1.0 / k + mean_lz - s1
-        slope = -1.0 / (k * k) - np.maximum(s2 - s1 * s1, 0.0)
-        lo = np.where(score > 0, np.maximum(lo, k), lo)
-        hi = np.where(score > 0, hi, np.minimum(hi, k))
-        k_new = k - score / slope
-        outside = ~((k_new > lo) & (k_new < hi))
-        k_new = np.where(outside, np.where(np.isfinite(hi), 0.5 * (lo + hi), 2.0 * k), k_new)
-        stop = np.abs(k_new - k) <= tol * k
-        out[rows[stop]] = k_new[stop]
-        keep = ~stop
-        if not keep.any():
-            break
-        rows, k, lo, hi = rows[keep], k_new[keep], lo[keep], hi[keep]
-        lz, mean_lz = lz[keep], mean_lz[keep]
-    return out
-
-
-def _weibull_shape_rows(lz: np.ndarray) -> np.ndarray:
-    """Weibull shape of each row of sorted ``lz = log(y / max y)``.
-
-    Start: the log of a weibull value is a (minimum) Gumbel value with sd ``pi / (k sqrt 6)``.
-    Long rows first solve the equation of an evenly spaced subset of their order statistics
-    (cheap, and close), then polish on the whole row.
-    """
-    sd = lz.std(axis=1)
-    with np.errstate(divide="ignore"):
-        k = np.pi / (np.sqrt(6.0) * sd)
-    k = np.where(np.isfinite(k) & (k > 0), k, 1.0)
-    n = lz.shape[1]
-    if n > 2 * _WARM:
-        sub = lz[:, :: n // _WARM]
-        warm = _weibull_newton(sub - sub[:, -1:], k, 1e-8, 100)
-        k = np.where(np.isfinite(warm), warm, k)
-    return _weibull_newton(lz, k, 1e-14, 100)
-
-
-# ---------------------------------------------------------------------------------------------
 # one family at a time: (parameters, rows fitted, fitted CDF of the sorted rows or None)
 
 Fast = Callable[[np.ndarray, bool], tuple[Arrays, np.ndarray, np.ndarray | None]]
+# Each takes sorted rows ``y`` (location removed) that it may overwrite, and ``cdf``: whether to
+# return the fitted CDF of ``y`` (computed in place where it can: fresh large arrays cost page
+# faults, which showed in the profile).
 
 
 def _standardised(v: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Row means, row sds (divisor n) and the standardised rows."""
+    """Row means, row sds (divisor n) and ``v`` standardised in place."""
     mu = v.mean(axis=1)
-    d = v - mu[:, None]
-    sigma = np.sqrt(np.einsum("ij,ij->i", d, d) / v.shape[1])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        d /= sigma[:, None]
-    return mu, sigma, d
+    v -= mu[:, None]
+    sigma = np.sqrt(np.einsum("ij,ij->i", v, v) / v.shape[1])
+    v /= sigma[:, None]
+    return mu, sigma, v
 
 
 def _normal(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray | None]:
@@ -179,7 +125,7 @@ def _normal(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray | 
 
 
 def _lognormal(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray | None]:
-    mu, sigma, z = _standardised(np.log(y))
+    mu, sigma, z = _standardised(np.log(y, out=y))
     return {"mu": mu, "sigma": sigma}, sigma > 0, special.ndtr(z, out=z) if cdf else None
 
 
@@ -187,8 +133,8 @@ def _exponential(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarr
     scale = y.mean(axis=1)
     u = None
     if cdf:
-        u = y / -scale[:, None]
-        np.expm1(u, out=u)
+        y /= -scale[:, None]
+        u = np.expm1(y, out=y)
         np.negative(u, out=u)
     return {"scale": scale}, scale > 0, u
 
@@ -197,9 +143,9 @@ def _rayleigh(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray 
     s2 = np.einsum("ij,ij->i", y, y) / (2.0 * y.shape[1])
     u = None
     if cdf:
-        u = y * y
-        u /= -2.0 * s2[:, None]
-        np.expm1(u, out=u)
+        y *= y
+        y /= -2.0 * s2[:, None]
+        u = np.expm1(y, out=y)
         np.negative(u, out=u)
     return {"sigma": np.sqrt(s2)}, s2 > 0, u
 
@@ -207,27 +153,23 @@ def _rayleigh(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray 
 def _inverse_gaussian(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray | None]:
     mu = y.mean(axis=1)
     inv = (1.0 / y).mean(axis=1) - 1.0 / mu
-    with np.errstate(divide="ignore"):
-        lam = 1.0 / inv
+    lam = 1.0 / inv
     ok = (inv > 0) & np.isfinite(lam)
     u = None
     if cdf:
-        # F = Phi(b) + exp(2 lam / mu) Phi(-a), a, b = sqrt(lam / y) (y / mu +- 1); with
-        # Phi(-a) = erfcx(a / sqrt 2) exp(-a^2 / 2) / 2 and 2 lam / mu - a^2 / 2 = -b^2 / 2 the
-        # second term is erfcx(a / sqrt 2) exp(-b^2 / 2) / 2: no overflow, no cancellation.
-        with np.errstate(invalid="ignore", divide="ignore"):
-            r = np.sqrt(lam[:, None] / y)
-            ym = y / mu[:, None]
-            b = r * (ym - 1.0)
-            a = r * (ym + 1.0)
-            a *= 1.0 / np.sqrt(2.0)
-            u = special.ndtr(b)
-            np.square(b, out=b)
-            b *= -0.5
-            np.exp(b, out=b)
-            b *= special.erfcx(a, out=a)
-            b *= 0.5
-            u += b
+        m, la = np.where(ok, mu, 1.0)[:, None], np.where(ok, lam, 1.0)[:, None]
+
+        def cdf_at(rows: Index, x: np.ndarray) -> np.ndarray:
+            return invgauss_cdf(x.copy(), m[rows], la[rows])
+
+        def pdf_at(rows: Index, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            mr, lr = m[rows], la[rows]
+            dens = np.sqrt(lr / (2.0 * np.pi * x**3)) * np.exp(
+                -lr * (x - mr) ** 2 / (2 * mr**2 * x)
+            )
+            return dens, lr / (2.0 * x * x) - 1.5 / x - lr / (2.0 * mr * mr)
+
+        u = smooth_cdf_sorted(y, cdf_at, pdf_at, LONG_ROW)
     return {"mu": mu, "lambda": lam}, ok, u
 
 
@@ -236,16 +178,30 @@ def _gamma(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray | N
     s = np.log(m) - np.log(y).mean(axis=1)
     ok = s > 0
     k = np.full(m.shape, np.nan)
-    k[ok] = _gamma_shape_rows(s[ok])
+    k[ok] = gamma_shape_rows(s[ok])
     scale = m / k
-    u = special.gammainc(k[:, None], y / scale[:, None]) if cdf else None
+    u = None
+    if cdf:
+        y /= scale[:, None]
+        ka = np.where(ok, k, 1.0)[:, None]
+
+        def cdf_at(rows: Index, x: np.ndarray) -> np.ndarray:
+            return special.gammainc(ka[rows], x)
+
+        def pdf_at(rows: Index, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            kr = ka[rows]
+            dens = np.exp(special.xlogy(kr - 1.0, x) - x - special.gammaln(kr))
+            return dens, (kr - 1.0) / x - 1.0
+
+        u = smooth_cdf_sorted(y, cdf_at, pdf_at)
     return {"shape": k, "scale": scale}, ok, u
 
 
 def _weibull(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray | None]:
-    top = y[:, -1]
-    lz = np.log(y / top[:, None])
-    k = _weibull_shape_rows(lz)
+    top = y[:, -1].copy()
+    y /= top[:, None]
+    lz = np.log(y, out=y)
+    k = weibull_shape_rows(lz)
     # scale^k = mean(y^k) and (y / scale)^k = e^{k lz} / mean(e^{k lz}) (as in the one-sample fit)
     lz *= np.where(np.isfinite(k), k, 1.0)[:, None]
     e = np.exp(lz, out=lz)
@@ -256,7 +212,8 @@ def _weibull(y: np.ndarray, cdf: bool) -> tuple[Arrays, np.ndarray, np.ndarray |
         e /= -mean_e[:, None]
         u = np.expm1(e, out=e)
         np.negative(u, out=u)
-    return {"shape": k, "scale": scale}, np.isfinite(k), u
+    # a huge shape means nearly equal values: the one-sample fit decides (it may refuse)
+    return {"shape": k, "scale": scale}, np.isfinite(k) & (k < _HUGE_SHAPE), u
 
 
 _FAST: dict[str, Fast] = {
@@ -288,10 +245,11 @@ def _batch(
     loc = _location(family, options)
     if loc is None or rows.ndim != 2 or rows.shape[1] < CATALOG[family].min_obs:
         return None
-    y = np.array(rows, dtype=np.float64, copy=True)
+    y = np.array(rows, dtype=np.float64, copy=True)  # sorted, shifted, then overwritten
     if loc:
         y -= loc
-    y.sort(axis=1)
+    if not np.all(y[:, 1:] >= y[:, :-1]):  # rows drawn sorted need no sort (a cheap pass)
+        y.sort(axis=1)
     lowest, highest = y[:, 0], y[:, -1]
     if family == "normal":
         inside = np.isfinite(lowest) & np.isfinite(highest)
@@ -299,23 +257,79 @@ def _batch(
         inside = (lowest > 0) if _STRICT[family] else (lowest >= 0)
     # all values equal: most one-sample fits refuse; values outside the support: all refuse
     good = inside & (highest > lowest)
-    every = bool(good.all())
+    idx = np.flatnonzero(good)
+    every = idx.size == y.shape[0]
     with np.errstate(all="ignore"):
-        fitted, ok, u_good = _FAST[family](y if every else y[good], cdf)
+        fitted, ok, u_sub = _FAST[family](y if every else y[idx], cdf)
         for name, v in fitted.items():
             real = name == "mu" and family in ("normal", "lognormal")
             ok &= np.isfinite(v) if real else (np.isfinite(v) & (v > 0))
-        if u_good is not None:
-            ok &= np.all((u_good >= 0.0) & (u_good <= 1.0), axis=1)
-    if not every:
-        where = np.flatnonzero(good)
-        good[where[~ok]] = False
-        ok = good
+        if u_sub is not None:  # a CDF of sorted rows: its ends bound it; NaN shows in the sum
+            ok &= (u_sub[:, 0] >= 0.0) & (u_sub[:, -1] <= 1.0) & np.isfinite(u_sub.sum(axis=1))
+    done = idx[ok]
     params: Arrays = {}
     for name, v in fitted.items():
         params[name] = np.full(y.shape[0], np.nan)
-        params[name][ok] = v if every else v[ok[where]] if False else v[ok[good]] if False else v
-    return params, ok, None
+        params[name][done] = v[ok]
+    if family != "normal":
+        params["loc"] = np.full(y.shape[0], np.nan)
+        params["loc"][done] = loc
+    fit = np.zeros(y.shape[0], dtype=bool)
+    fit[done] = True
+    u = None
+    if u_sub is not None:
+        if every:
+            u = u_sub
+            u[~ok] = np.nan
+        else:
+            u = np.full(y.shape, np.nan)
+            u[done] = u_sub[ok]
+    return params, fit, u
+
+
+def sorted_replicate_rows(
+    family: str,
+    params: Mapping[str, float],
+    options: Mapping[str, Any],
+    shape: tuple[int, int],
+    rng: np.random.Generator,
+) -> np.ndarray | None:
+    """Replicate rows for a goodness-of-fit bootstrap of a fit, drawn already sorted.
+
+    The order statistics of ``n`` standard exponentials are the cumulative sums of independent
+    standard exponentials divided by ``n, n - 1, ..., 1`` (Renyi, 1953), which costs less than
+    drawing and then sorting. Exponential and rayleigh rows are then exactly sorted draws from
+    the fitted member (``scale E + loc``, ``sigma sqrt(2 E) + loc``). Weibull rows at location
+    0 are ``scale E``, a member with shape 1: the maximum-likelihood refit is equivariant under
+    ``y -> c y^a``, which maps members onto each other, so the refitted CDF values of a
+    replicate, and any statistic of them, have the same law whichever member it came from (no
+    power to compute); at another location they are the fitted member's ``scale E^(1/shape) +
+    loc`` (keeping the replicates' distance from the location, hence their precision). Rows
+    rounded to a recording resolution lose the invariance: the caller must not round these.
+
+    Returns None for every other family or option (draw from the fitted member instead).
+    """
+    if family not in ("exponential", "weibull", "rayleigh"):
+        return None
+    loc = _location(family, options)
+    if loc is None:
+        return None
+    b, n = shape
+    rows = rng.standard_exponential((b, n))
+    rows *= 1.0 / np.arange(n, 0, -1, dtype=np.float64)
+    np.cumsum(rows, axis=1, out=rows)
+    if family == "rayleigh":
+        rows *= 2.0
+        np.sqrt(rows, out=rows)
+        rows *= params["sigma"]
+    elif family == "weibull" and loc:
+        rows **= 1.0 / params["shape"]
+        rows *= params["scale"]
+    else:
+        rows *= params["scale"]
+    if loc:
+        rows += loc
+    return rows
 
 
 def refit_cdf_rows(
@@ -357,7 +371,8 @@ def fit_rows(
 
     Rows the batch path declines, and every row of a family without one, are fitted by
     :func:`~samplewright.fitting.mle.fit_family` with the same options; a row whose fit raises
-    FitError or MethodError is marked failed (its parameters NaN).
+    FitError or MethodError is marked failed (its parameters NaN). Option names are checked
+    once, first (MethodError naming an unknown one).
 
     Parameters
     ----------
@@ -380,6 +395,7 @@ def fit_rows(
     ((4,), 4, 0)
     """
     opts = dict(options or {})
+    check_options(family, opts)
     rows = np.asarray(rows, dtype=np.float64)
     if rows.ndim != 2:
         raise MethodError(f"rows: expected a 2-d array (samples by values), found {rows.ndim}-d")

@@ -1,15 +1,26 @@
-"""Maximum-likelihood estimates, family by family (the table that uses them is in :mod:`.mle`).
+"""Maximum-likelihood estimates with a closed form or one score equation, family by family.
 
-Fitters take checked values ``x`` (or ``y = x - loc`` for positive families, the location added
-by the caller), frequency weights ``w`` and the options, and return the parameters. Closed forms
-are used where they exist (normal, lognormal, exponential, inverse gaussian, rayleigh, pareto,
-poisson, geometric, binomial); gamma, weibull, gumbel and negative binomial solve one score
-equation (:mod:`.optimise`); the rest maximise the likelihood numerically. The right-censored
-fitters at the end take event weights ``e`` (``w`` where the value is observed, 0 where censored).
+Fitters take the checked data as an :class:`~samplewright.fitting.mle_sums.Obs` (values,
+optional weights, extremes computed once) and the options, and return ``(params, loglik)``:
+the log-likelihood from the same sums where it has a closed form, else None (the caller
+computes it). Positive families' fitters (``fit0``) also take the location ``loc`` and fit
+``y = x - loc``; :mod:`.mle` adds ``loc`` to the parameters. The table that uses them, the
+numerical fits and the option rules are in :mod:`.mle`, :mod:`.mle_numeric` and
+:mod:`.mle_bounded`.
+
+Closed forms: normal, lognormal, exponential, inverse gaussian, rayleigh, pareto, poisson,
+geometric, binomial; gamma, weibull and negative binomial solve one score equation
+(:mod:`.optimise`). A parameter fixed by an option (a float under the parameter's own name,
+checked by :func:`samplewright.fitting.mle.fixed_options`) is used as given; the ones these
+fitters handle are listed in :data:`FIXABLE` (the others are fitted numerically by :mod:`.mle`).
+The sums are taken in chunks (:mod:`.mle_sums`), so a fit of a huge column holds no n-long
+temporaries (weibull keeps one array of logarithms). The right-censored fitters at the end take
+arrays and event weights ``e`` (``w`` where the value is observed, 0 where censored).
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from typing import Any
 
@@ -17,25 +28,48 @@ import numpy as np
 from scipy import special
 
 from samplewright.core.checks import check_counts
-from samplewright.core.errors import FitError, MethodError
+from samplewright.core.errors import MethodError
 from samplewright.distributions.families import Params
 from samplewright.fitting import optimise as _mle
-from samplewright.fitting.optimise import Kind, wmean
+from samplewright.fitting.mle_sums import (
+    CHUNK,
+    Obs,
+    array_moments,
+    dot,
+    log_moments,
+    log_ratios,
+    moments,
+    refuse_outside,
+    sum_inv_dev,
+    sum_log,
+    sum_shifted,
+    sum_sq,
+)
 
 __all__ = [
     "CENSORED_FITTERS",
     "CensFitter",
     "FITTERS",
+    "FITTERS0",
+    "FIXABLE",
+    "Fitted",
     "Fitter",
-    "bounds_option",
+    "Fitter0",
+    "check_shift",
+    "fixed",
     "loc_option",
+    "need_finite",
     "need_spread",
     "number_option",
-    "shifted",
 ]
 
-Fitter = Callable[[np.ndarray, np.ndarray, Mapping[str, Any]], Params]
+Fitted = tuple[Params, float | None]
+Fitter = Callable[[Obs, Mapping[str, Any]], Fitted]
+Fitter0 = Callable[[Obs, float, Mapping[str, Any]], Fitted]
 CensFitter = Callable[[np.ndarray, np.ndarray, np.ndarray, Mapping[str, Any]], Params]
+
+_LOG_2PI = float(np.log(2.0 * np.pi))
+_MAX_COUNT = 2.0**53  # counts above it are not exact integers in float64
 
 
 # ---------------------------------------------------------------------------------------------
@@ -60,368 +94,315 @@ def number_option(
 
 def loc_option(options: Mapping[str, Any], name: str, free_ok: bool) -> float | str:
     """Option ``loc``: a number (default 0), or ``"free"`` where ``free_ok``."""
-    if free_ok and options.get("loc") == "free":
-        return "free"
     v = options.get("loc", 0.0)
+    if type(v) is float and math.isfinite(v):  # the common case, quickly
+        return v
+    if free_ok and v == "free":
+        return "free"
     if isinstance(v, str):
         want = "a number or 'free'" if free_ok else "a number"
         raise MethodError(f"option 'loc' of {name}: expected {want}, found {v!r}")
     return float(number_option(options, "loc", name, 0.0))  # type: ignore[arg-type]
 
 
-def shifted(x: np.ndarray, loc: float, name: str, strict: bool) -> np.ndarray:
-    """``x - loc``, refused unless every value is above ``loc`` (or at it, unless ``strict``)."""
-    y = x - loc
-    bad = (y <= 0) if strict else (y < 0)
-    if bad.any():
-        rel = ">" if strict else ">="
-        nbad = int(bad.sum())
+def fixed(options: Mapping[str, Any], key: str) -> float | None:
+    """The value of parameter ``key`` fixed by the (already checked) options, or None."""
+    v = options.get(key)
+    return None if v is None else float(v)
+
+
+def check_shift(obs: Obs, loc: float, name: str, strict: bool) -> None:
+    """Refuse values at or below ``loc`` (below it, unless ``strict``), naming the first."""
+    if obs.lo > loc or (not strict and obs.lo >= loc):
+        return
+    rel = ">" if strict else ">="
+    bad = obs.x <= loc if strict else obs.x < loc
+    refuse_outside(obs, bad, f"{name} needs every value {rel} {loc!r} (its location)")
+
+
+def need_spread(obs: Obs, name: str) -> None:
+    """Refuse values that are all equal, or whose spread overflows float64."""
+    if obs.lo == obs.hi:
+        raise MethodError(f"{name} cannot be fitted: all {obs.n} values equal {obs.lo!r}")
+    if not np.isfinite(obs.hi - obs.lo):
         raise MethodError(
-            f"{name} needs every value {rel} {loc:g} (its location); found {nbad} "
-            f"value{'s' if nbad > 1 else ''} outside, smallest {float(x.min())!r}"
+            f"{name}: the values span {obs.lo!r} to {obs.hi!r}, a spread that overflows float64 "
+            "arithmetic; fit rescaled values (other units)"
         )
-    return y
 
 
-def need_spread(x: np.ndarray, name: str) -> None:
-    """Refuse values that are all equal."""
-    if np.ptp(x) == 0:
-        raise MethodError(f"{name} cannot be fitted: all {x.size} values equal {float(x[0])!r}")
+def need_finite(name: str, obs: Obs, *values: float) -> None:
+    """Refuse a fit whose sums overflowed or underflowed (values of extreme magnitude)."""
+    if all(math.isfinite(v) for v in values):
+        return
+    raise MethodError(
+        f"{name}: the values (from {obs.lo!r} to {obs.hi!r}) are too extreme for float64 "
+        "arithmetic in this fit; fit rescaled values (other units)"
+    )
 
 
-def bounds_option(
-    x: np.ndarray, options: Mapping[str, Any], name: str, default: tuple[float | None, float | None]
-) -> tuple[float | None, float | None]:
-    """Options ``lower`` and ``upper`` (``default`` when absent), checked against the data."""
-    lo = number_option(options, "lower", name, default[0])
-    hi = number_option(options, "upper", name, default[1])
-    if lo is not None and hi is not None and not lo < hi:
-        raise MethodError(f"options of {name}: expected lower < upper, found {lo!r} >= {hi!r}")
-    if lo is not None and x.min() < lo:
-        raise MethodError(
-            f"{name}: option lower={lo!r} is above the smallest value {float(x.min())!r}"
-        )
-    if hi is not None and x.max() > hi:
-        raise MethodError(
-            f"{name}: option upper={hi!r} is below the largest value {float(x.max())!r}"
-        )
-    return lo, hi
+def _pow2(v: float) -> float:
+    """The largest power of two at or below ``v > 0`` (dividing by it is exact)."""
+    return float(2.0 ** math.floor(math.log2(v)))
 
 
 # ---------------------------------------------------------------------------------------------
-# fits at location 0 (``y`` already shifted); :mod:`.mle` adds ``loc``
+# families on the real line
 
 
-def _fit0_lognormal(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    ly = np.log(y)
-    need_spread(ly, "lognormal")
-    mu = wmean(ly, w)
-    return {"mu": mu, "sigma": float(np.sqrt(wmean((ly - mu) ** 2, w)))}
+def _fit_normal(obs: Obs, o: Mapping[str, Any]) -> Fitted:
+    need_spread(obs, "normal")
+    span = obs.hi - obs.lo
+    scale = 1.0 if 1e-100 < span < 1e100 else _pow2(span)  # keeps squares in range
+    m, q = moments(obs, scale)
+    big_w = obs.total
+    mu = fixed(o, "mu")
+    mu = m * scale if mu is None else mu
+    d2 = q + big_w * (m - mu / scale) ** 2  # sum of squared deviations from mu, over scale**2
+    sigma = fixed(o, "sigma")
+    sigma = scale * float(np.sqrt(d2 / big_w)) if sigma is None else sigma
+    if not sigma > 0:
+        raise MethodError(f"normal cannot be fitted: every value equals mu = {mu!r}")
+    ll = -big_w * (np.log(sigma) + 0.5 * _LOG_2PI) - d2 / (2.0 * (sigma / scale) ** 2)
+    need_finite("normal", obs, mu, sigma, ll)
+    return {"mu": mu, "sigma": sigma}, float(ll)
 
 
-def _fit0_exponential(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    scale = wmean(y, w)
-    if scale <= 0:
-        raise MethodError("exponential cannot be fitted: every value equals the location")
-    return {"scale": scale}
+def _fit_gumbel(obs: Obs, o: Mapping[str, Any]) -> Fitted:
+    need_spread(obs, "gumbel")
+    beta = fixed(o, "beta")
+    w = obs.weights()
+    if beta is None:
+        mu, beta = _mle.gumbel_fit(obs.x, w)
+        return {"mu": mu, "beta": beta}, None
+    # beta given: mu = -beta log(mean(exp(-x / beta))) (log-sum-exp around the smallest value)
+    a = np.log(w) - (obs.x - obs.lo) / beta
+    amax = float(a.max())
+    lse = amax + float(np.log(np.sum(np.exp(a - amax)))) - float(np.log(obs.total))
+    return {"mu": obs.lo - beta * lse, "beta": beta}, None
 
 
-def _fit0_gamma(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(y, "gamma")
-    m = wmean(y, w)
-    k = _mle.gamma_shape(float(np.log(m) - wmean(np.log(y), w)))
-    return {"shape": k, "scale": m / k}
+# ---------------------------------------------------------------------------------------------
+# positive families at location 0 (``loc`` subtracted chunk by chunk); :mod:`.mle` adds ``loc``
 
 
-def _fit0_weibull(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(y, "weibull")
-    k, scale = _mle.weibull_shape_scale(y, w, w)
-    return {"shape": k, "scale": scale}
+def _fit0_lognormal(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "lognormal", True)
+    m, q = log_moments(obs, loc)
+    if q == 0:
+        need_spread(obs, "lognormal")
+    big_w = obs.total
+    mu = fixed(o, "mu")
+    mu = m if mu is None else mu
+    d2 = q + big_w * (m - mu) ** 2
+    sigma = fixed(o, "sigma")
+    sigma = float(np.sqrt(d2 / big_w)) if sigma is None else sigma
+    if not sigma > 0:
+        raise MethodError("lognormal cannot be fitted: log(x - loc) does not vary")
+    ll = -big_w * (m + np.log(sigma) + 0.5 * _LOG_2PI) - d2 / (2.0 * sigma * sigma)
+    need_finite("lognormal", obs, m, ll)
+    return {"mu": mu, "sigma": sigma}, float(ll)
 
 
-def _logistic_logpdf(z: np.ndarray, mu: float, s: float) -> np.ndarray:
-    t = (z - mu) / s
-    return -np.log(s) - t - 2.0 * np.logaddexp(0.0, -t)
+def _fit0_exponential(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "exponential", False)
+    s = sum_shifted(obs, loc)
+    need_finite("exponential", obs, s)
+    scale = fixed(o, "scale")
+    if scale is None:
+        scale = s / obs.total
+        if not scale > 0:
+            raise MethodError("exponential cannot be fitted: every value equals the location")
+    return {"scale": scale}, float(-s / scale - obs.total * np.log(scale))
 
 
-def _fit_logistic(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(x, "logistic")
-    m = wmean(x, w)
-    start = {"mu": m, "s": float(np.sqrt(wmean((x - m) ** 2, w))) * np.sqrt(3.0) / np.pi}
-    total = float(np.sum(w))
-    return _mle.maximise_params(
-        lambda p: float(np.sum(w * _logistic_logpdf(x, p["mu"], p["s"]))) / total,
-        start,
-        ("mu", "s"),
-        {"mu": ("real", "s"), "s": ("log",)},
-        label="logistic",
-    )
+def _digamma_inv(c: float) -> float:
+    """The k > 0 with ``digamma(k) = c`` (Minka's start, Newton; digamma increases)."""
+    k = float(np.exp(c) + 0.5) if c >= -2.22 else float(-1.0 / (c - special.digamma(1.0)))
+    for _ in range(60):
+        step = float((special.digamma(k) - c) / special.polygamma(1, k))
+        k_new = k - step if k - step > 0 else k / 2.0
+        if abs(k_new - k) <= 1e-15 * k:
+            return k_new
+        k = k_new
+    return k
 
 
-def _fit0_loglogistic(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    # log(y) is logistic(log alpha, 1/beta); the Jacobian term does not depend on the parameters.
-    p = _fit_logistic(np.log(y), w, o)
-    return {"alpha": float(np.exp(p["mu"])), "beta": 1.0 / p["s"]}
+def _fit0_gamma(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "gamma", True)
+    big_w = obs.total
+    s = sum_shifted(obs, loc)
+    need_finite("gamma", obs, s)
+    sl = sum_log(obs, loc, top=s)
+    m, ml = s / big_w, sl / big_w
+    k, theta = fixed(o, "shape"), fixed(o, "scale")
+    if k is None and theta is None:
+        spread = math.log(m) - ml  # > 0 unless every value is the same (Jensen)
+        if not spread > 1e-15:
+            need_spread(obs, "gamma")
+        k = _mle.gamma_shape(spread)
+    elif k is None:
+        assert theta is not None
+        k = _digamma_inv(ml - float(np.log(theta)))  # score in k with the scale given
+    theta = m / k if theta is None else theta
+    ll = (k - 1.0) * sl - s / theta - big_w * (k * np.log(theta) + special.gammaln(k))
+    need_finite("gamma", obs, theta, ll)
+    return {"shape": k, "scale": theta}, float(ll)
 
 
-def _fit0_pareto(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    xm = number_option(o, "xm", "pareto", None)
-    if xm is None:
-        xm = float(y.min())
-    elif not 0 < xm <= y.min():
-        raise MethodError(
-            f"pareto: option xm={xm!r} must be in (0, smallest x - loc = {float(y.min())!r}]"
-        )
-    s = float(np.sum(w * np.log(y / xm)))
-    if s <= 0:
-        raise MethodError("pareto cannot be fitted: every value equals xm")
-    return {"alpha": float(np.sum(w)) / s, "xm": xm}
+def _chunk_sum_exp(lz: np.ndarray, w: np.ndarray | None, k: float) -> float:
+    out = 0.0
+    for s in range(0, lz.size, CHUNK):
+        e = np.exp(k * lz[s : s + CHUNK])
+        out += float(e.sum() if w is None else dot(w[s : s + CHUNK], e))
+    return out
 
 
-def _gpd_logpdf(y: np.ndarray, xi: float, sigma: float) -> np.ndarray:
-    if xi < -1.0:  # the likelihood is unbounded below xi = -1
-        return np.full(y.shape, -np.inf)
-    if abs(xi) < 1e-12:
-        return -np.log(sigma) - y / sigma
-    t = xi * y / sigma
-    out = -np.log(sigma) - (1.0 + 1.0 / xi) * np.log1p(np.maximum(t, -1.0))
-    return np.where(t > -1.0, out, -np.inf)
-
-
-def _fit0_gpd(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(y, "generalized_pareto")
-    m, v = wmean(y, w), wmean((y - wmean(y, w)) ** 2, w)
-    total = float(np.sum(w))
-    starts = [{"xi": 0.0, "sigma": m}]
-    xi0, s0 = 0.5 * (1.0 - m * m / v), 0.5 * m * (m * m / v + 1.0)
-    if xi0 >= 0 or s0 / -xi0 > y.max():
-        starts.append({"xi": xi0, "sigma": s0})
-    kinds: dict[str, Kind] = {"xi": ("real", 1.0), "sigma": ("log",)}
-    return _mle.best_of(
-        lambda p: float(np.sum(w * _gpd_logpdf(y, p["xi"], p["sigma"]))) / total,
-        starts,
-        ("xi", "sigma"),
-        kinds,
-        label="generalized_pareto",
-    )
-
-
-def _fit0_inverse_gaussian(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(y, "inverse_gaussian")
-    mu = wmean(y, w)
-    inv = wmean(1.0 / y, w) - 1.0 / mu
-    if inv <= 0:  # pragma: no cover - positive by Jensen when the values differ
-        raise FitError("inverse_gaussian: mean(1/x) - 1/mean(x) is not positive")
-    return {"mu": mu, "lambda": 1.0 / inv}
-
-
-def _fit0_rayleigh(y: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    s2 = float(np.sum(w * y * y)) / (2.0 * float(np.sum(w)))
-    if s2 <= 0:
-        raise MethodError("rayleigh cannot be fitted: every value equals the location")
-    return {"sigma": float(np.sqrt(s2))}
-
-
-# --- families without a location option ------------------------------------------------------
-
-
-def _fit_normal(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(x, "normal")
-    mu = wmean(x, w)
-    return {"mu": mu, "sigma": float(np.sqrt(wmean((x - mu) ** 2, w)))}
-
-
-def _fit_gumbel(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(x, "gumbel")
-    mu, beta = _mle.gumbel_fit(x, w)
-    return {"mu": mu, "beta": beta}
-
-
-def _gev_logpdf(x: np.ndarray, mu: float, sigma: float, xi: float) -> np.ndarray:
-    if xi < -1.0:  # the likelihood is unbounded below xi = -1 (Smith, 1985)
-        return np.full(x.shape, -np.inf)
-    z = (x - mu) / sigma
-    if abs(xi) < 1e-9:
-        return -np.log(sigma) - z - np.exp(-z)
-    t = 1.0 + xi * z
-    lt = np.log(np.where(t > 0, t, 1.0))
-    out = -np.log(sigma) - (1.0 + 1.0 / xi) * lt - np.exp(-lt / xi)
-    return np.where(t > 0, out, -np.inf)
-
-
-def _fit_gev(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(x, "gev")
-    mu, beta = _mle.gumbel_fit(x, w)
-    total = float(np.sum(w))
-
-    def ll(p: Params) -> float:
-        return float(np.sum(w * _gev_logpdf(x, p["mu"], p["sigma"], p["xi"]))) / total
-
-    kinds: dict[str, Kind] = {"mu": ("real", "sigma"), "sigma": ("log",), "xi": ("real", 1.0)}
-    starts = [{"mu": mu, "sigma": beta, "xi": xi} for xi in (0.0, 0.2, -0.2)]
-    return _mle.best_of(ll, starts, ("mu", "sigma", "xi"), kinds, label="gev")
-
-
-def _fit_beta(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    lo, hi = bounds_option(x, o, "beta", (0.0, 1.0))
-    assert lo is not None and hi is not None
-    u = (x - lo) / (hi - lo)
-    if np.any((u <= 0) | (u >= 1)):
-        raise MethodError(f"beta needs every value strictly inside ({lo:g}, {hi:g})")
-    need_spread(u, "beta")
-    m = wmean(u, w)
-    common = m * (1.0 - m) / wmean((u - m) ** 2, w) - 1.0
-    a0, b0 = (m * common, (1.0 - m) * common) if common > 0 else (1.0, 1.0)
-    lu, l1u, total = np.log(u), np.log1p(-u), float(np.sum(w))
-    su, s1u = float(np.sum(w * lu)) / total, float(np.sum(w * l1u)) / total
-    p = _mle.maximise_params(
-        lambda p: (
-            (p["alpha"] - 1) * su + (p["beta"] - 1) * s1u - special.betaln(p["alpha"], p["beta"])
-        ),
-        {"alpha": a0, "beta": b0},
-        ("alpha", "beta"),
-        {"alpha": ("log",), "beta": ("log",)},
-        label="beta",
-    )
-    return {"alpha": p["alpha"], "beta": p["beta"], "lower": lo, "upper": hi}
-
-
-def _fit_uniform(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    lo, hi = bounds_option(x, o, "uniform", (None, None))
-    lo = float(x.min()) if lo is None else lo
-    if hi is None:
-        hi = float(x.max())
-        while lo + (hi - lo) < x.max():  # scipy's support is loc + scale: keep the top inside
-            hi = float(np.nextafter(hi, np.inf))
-    if not lo < hi:
-        raise MethodError(f"uniform cannot be fitted: all {x.size} values equal {lo!r}")
-    return {"lower": lo, "upper": hi}
-
-
-def _triangular_mode(xs: np.ndarray, ws: np.ndarray, a: float, b: float) -> tuple[float, float]:
-    """Best mode for bounds (a, b) over {a, sorted values, b} (Oliver, 1972) and its mean loglik."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        la, lb = np.log(xs - a), np.log(b - xs)
-        cand = np.concatenate([[a], xs, [b]])
-        k = np.concatenate([[0.0], np.cumsum(ws)])  # weight at or left of each candidate
-        total = k[-1]
-        k = np.concatenate([k, [total]])
-        left = np.concatenate([[0.0], np.cumsum(ws * la), [np.sum(ws * la)]])
-        right = np.concatenate([[np.sum(ws * lb)], np.sum(ws * lb) - np.cumsum(ws * lb), [0.0]])
-        ll = (
-            total * (np.log(2.0) - np.log(b - a))
-            + left
-            + right
-            - np.where(k > 0, k * np.log(cand - a), 0.0)
-            - np.where(total - k > 0, (total - k) * np.log(b - cand), 0.0)
-        )
-    ll = np.where(np.isnan(ll), -np.inf, ll)
-    j = int(np.argmax(ll))
-    return float(cand[j]), float(ll[j]) / total
-
-
-def _fit_triangular(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(x, "triangular")
-    lo, hi = bounds_option(x, o, "triangular", (None, None))
-    order = np.argsort(x, kind="stable")
-    xs, ws = x[order], w[order]
-    xmin, xmax, spread = float(xs[0]), float(xs[-1]), float(xs[-1] - xs[0])
-    free = [n for n, v in (("lower", lo), ("upper", hi)) if v is None]
-
-    def ends(p: Params) -> tuple[float, float]:
-        a = lo if lo is not None else xmin - spread * p["lower"]
-        b = hi if hi is not None else xmax + spread * p["upper"]
-        return a, b
-
-    start = {"lower": 0.05, "upper": 0.05}
-    if free:
-        best = _mle.maximise_params(
-            lambda p: _triangular_mode(xs, ws, *ends(p))[1],
-            start,
-            free,
-            {"lower": ("log",), "upper": ("log",)},
-            label="triangular",
-        )
+def _fit0_weibull(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "weibull", True)
+    need_spread(obs, "weibull")
+    top = obs.hi - loc
+    with np.errstate(divide="ignore"):
+        lz = log_ratios(obs, loc, top)
+    mean_lz, q = array_moments(lz, obs.w)
+    big_w = obs.total
+    sd_lz = float(np.sqrt(q / big_w))
+    need_finite("weibull", obs, mean_lz, sd_lz)
+    k = fixed(o, "shape")
+    if k is None:
+        k, s0 = _mle.weibull_shape(lz, obs.w, mean_lz, sd_lz)
     else:
-        best = start
-    a, b = ends(best)
-    c, ll = _triangular_mode(xs, ws, a, b)
-    if not np.isfinite(ll):
-        raise FitError(f"triangular: no mode gives a finite likelihood on [{a!r}, {b!r}]")
-    return {"lower": a, "mode": c, "upper": b}
-
-
-def _student_logpdf(x: np.ndarray, mu: float, sigma: float, nu: float) -> np.ndarray:
-    z = (x - mu) / sigma
-    return (
-        special.gammaln((nu + 1) / 2)
-        - special.gammaln(nu / 2)
-        - 0.5 * np.log(nu * np.pi)
-        - np.log(sigma)
-        - (nu + 1) / 2 * np.log1p(z * z / nu)
+        s0 = _chunk_sum_exp(lz, obs.w, k)
+    scale = fixed(o, "scale")
+    scale = top * (s0 / big_w) ** (1.0 / k) if scale is None else scale
+    sum_pow = s0 * float(np.exp(k * np.log(top / scale)))  # sum(w (y / scale)^k)
+    ll = (
+        big_w * (np.log(k) - k * np.log(scale))
+        + (k - 1.0) * (big_w * mean_lz + big_w * np.log(top))
+        - sum_pow
     )
+    return {"shape": k, "scale": scale}, float(ll)
 
 
-def _fit_student_t(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(x, "student_t")
-    total = float(np.sum(w))
-    med = float(np.median(x))
-    mad = 1.4826 * float(np.median(np.abs(x - med)))
-    sigma0 = mad if mad > 0 else float(np.sqrt(wmean((x - wmean(x, w)) ** 2, w)))
-
-    def ll(p: Params) -> float:
-        if p["nu"] > 1e8:
-            return -np.inf
-        return float(np.sum(w * _student_logpdf(x, p["mu"], p["sigma"], p["nu"]))) / total
-
-    kinds: dict[str, Kind] = {"mu": ("real", "sigma"), "sigma": ("log",), "nu": ("log",)}
-    starts = [{"mu": med, "sigma": sigma0, "nu": nu} for nu in (1.5, 5.0, 30.0)]
-    return _mle.best_of(ll, starts, ("mu", "sigma", "nu"), kinds, label="student_t")
-
-
-# --- discrete ---------------------------------------------------------------------------------
-
-
-def _fit_poisson(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    check_counts(x, "poisson")
-    lam = wmean(x, w)
-    if lam <= 0:
-        raise MethodError("poisson cannot be fitted: every value is 0")
-    return {"lambda": lam}
+def _fit0_pareto(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "pareto", True)
+    ymin = obs.lo - loc
+    xm = fixed(o, "xm")
+    if xm is None:
+        xm = ymin
+    elif not 0 < xm <= ymin:
+        raise MethodError(f"pareto: option xm={xm!r} must be in (0, smallest x - loc = {ymin!r}]")
+    big_w = obs.total
+    s = sum_log(obs, loc) - big_w * float(np.log(xm))  # sum(w log(y / xm))
+    alpha = fixed(o, "alpha")
+    if alpha is None:
+        if not s > 0:
+            raise MethodError("pareto cannot be fitted: every value equals xm")
+        alpha = big_w / s
+    ll = big_w * np.log(alpha) - alpha * s - (s + big_w * np.log(xm))
+    need_finite("pareto", obs, alpha, ll)
+    return {"alpha": alpha, "xm": xm}, float(ll)
 
 
-def _fit_geometric(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    check_counts(x, "geometric")
-    m = wmean(x, w)
+def _fit0_inverse_gaussian(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "inverse_gaussian", True)
+    big_w = obs.total
+    s = sum_shifted(obs, loc)
+    mu = fixed(o, "mu")
+    mu = s / big_w if mu is None else mu
+    d = sum_inv_dev(obs, loc, mu)  # sum(w (y - mu)^2 / y)
+    if d == 0:  # every value equal, or deviations too small to square in float64
+        need_spread(obs, "inverse_gaussian")
+        need_finite("inverse_gaussian", obs, math.inf)
+    sl = sum_log(obs, loc, top=s)
+    need_finite("inverse_gaussian", obs, mu, mu * mu, d, sl)
+    lam = fixed(o, "lambda")
+    if lam is None:
+        if not d > 0:
+            raise MethodError("inverse_gaussian cannot be fitted: every value equals mu")
+        lam = big_w * mu * mu / d
+    ll = 0.5 * big_w * (np.log(lam) - _LOG_2PI) - 1.5 * sl - lam * d / (2.0 * mu * mu)
+    need_finite("inverse_gaussian", obs, lam, ll)
+    return {"mu": mu, "lambda": lam}, float(ll)
+
+
+def _fit0_rayleigh(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
+    check_shift(obs, loc, "rayleigh", True)
+    scale = 1.0
+    q = sum_sq(obs, loc)  # sum(w (y / scale)^2)
+    if not 1e-280 < q < math.inf:  # squares out of range: rescale by a power of two
+        scale = _pow2(obs.hi - loc)
+        q = sum_sq(obs, loc, scale)
+    big_w = obs.total
+    sigma = fixed(o, "sigma")
+    sigma = scale * math.sqrt(q / (2.0 * big_w)) if sigma is None else sigma
+    sl = sum_log(obs, loc, top=scale * math.sqrt(q))
+    ll = sl - 2.0 * big_w * np.log(sigma) - q / (2.0 * (sigma / scale) ** 2)
+    need_finite("rayleigh", obs, q, sigma, ll)
+    return {"sigma": sigma}, float(ll)
+
+
+# --- counts -----------------------------------------------------------------------------------
+
+
+def _counts(obs: Obs, name: str) -> float:
+    """Check counts (whole numbers >= 0, at most 2**53); their weighted mean."""
+    check_counts(obs.x, name)
+    if obs.hi > _MAX_COUNT:
+        refuse_outside(obs, obs.x > _MAX_COUNT, f"{name}: counts must be at most 2**53")
+    return sum_shifted(obs) / obs.total
+
+
+def _fit_poisson(obs: Obs, o: Mapping[str, Any]) -> Fitted:
+    m = _counts(obs, "poisson")
+    lam = fixed(o, "lambda")
+    if lam is None:
+        if m <= 0:
+            raise MethodError("poisson cannot be fitted: every value is 0")
+        lam = m
+    return {"lambda": lam}, None
+
+
+def _fit_geometric(obs: Obs, o: Mapping[str, Any]) -> Fitted:
+    m = _counts(obs, "geometric")
+    p = fixed(o, "p")
+    if p is None:
+        if m <= 0:
+            raise MethodError("geometric cannot be fitted: every value is 0")
+        p = 1.0 / (1.0 + m)
+    return {"p": p}, None
+
+
+def _fit_negative_binomial(obs: Obs, o: Mapping[str, Any]) -> Fitted:
+    m = _counts(obs, "negative_binomial")
+    r = fixed(o, "r")
+    if r is None:
+        x, w = obs.x, obs.weights()
+        v = float(dot(w, (x - m) ** 2)) / obs.total
+        if not v > m:
+            raise MethodError(
+                f"negative_binomial needs variance > mean (over-dispersion); found variance "
+                f"{v:.4g} <= mean {m:.4g}: use poisson or binomial"
+            )
+        r = _mle.negbin_r(x, w)
     if m <= 0:
-        raise MethodError("geometric cannot be fitted: every value is 0")
-    return {"p": 1.0 / (1.0 + m)}
+        raise MethodError("negative_binomial cannot be fitted: every value is 0")
+    return {"r": r, "p": r / (r + m)}, None
 
 
-def _fit_negative_binomial(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
-    check_counts(x, "negative_binomial")
-    m = wmean(x, w)
-    v = wmean((x - m) ** 2, w)
-    if not v > m:
-        raise MethodError(
-            f"negative_binomial needs variance > mean (over-dispersion); found variance {v:.4g} "
-            f"<= mean {m:.4g}: use poisson or binomial"
-        )
-    r = _mle.negbin_r(x, w)
-    return {"r": r, "p": r / (r + m)}
-
-
-def _fit_binomial(x: np.ndarray, w: np.ndarray, o: Mapping[str, Any]) -> Params:
+def _fit_binomial(obs: Obs, o: Mapping[str, Any]) -> Fitted:
     n = o.get("n_trials")
     if isinstance(n, bool) or not isinstance(n, int | np.integer) or n < 1:
         raise MethodError(f"option 'n_trials' of binomial: expected an int >= 1, found {n!r}")
-    check_counts(x, "binomial")
-    if x.max() > n:
-        raise MethodError(f"binomial: a value {float(x.max())!r} exceeds option n_trials={n}")
-    p = wmean(x, w) / n
-    if not 0 < p < 1:
-        raise MethodError(f"binomial cannot be fitted: every value is {x[0]:g} (p = {p:g})")
-    return {"n_trials": float(n), "p": p}
+    m = _counts(obs, "binomial")
+    if obs.hi > n:
+        refuse_outside(obs, obs.x > n, f"binomial: every value must be at most n_trials={n}")
+    p = fixed(o, "p")
+    if p is None:
+        p = m / n
+        if not 0 < p < 1:
+            raise MethodError(f"binomial cannot be fitted: every value is {obs.lo:g} (p = {p:g})")
+    return {"n_trials": float(n), "p": p}, None
 
 
 # ---------------------------------------------------------------------------------------------
@@ -433,7 +414,8 @@ def _cens_exponential(y: np.ndarray, w: np.ndarray, e: np.ndarray, o: Mapping[st
 
 
 def _cens_weibull(y: np.ndarray, w: np.ndarray, e: np.ndarray, o: Mapping[str, Any]) -> Params:
-    need_spread(y, "weibull")
+    if np.ptp(y) == 0:
+        raise MethodError(f"weibull cannot be fitted: all {y.size} values equal {float(y[0])!r}")
     k, scale = _mle.weibull_shape_scale(y, w, e)
     return {"shape": k, "scale": scale}
 
@@ -443,7 +425,7 @@ def _cens_rayleigh(y: np.ndarray, w: np.ndarray, e: np.ndarray, o: Mapping[str, 
 
 
 def _cens_pareto(y: np.ndarray, w: np.ndarray, e: np.ndarray, o: Mapping[str, Any]) -> Params:
-    xm = number_option(o, "xm", "pareto", None)
+    xm = fixed(o, "xm")
     if xm is None:
         xm = float(y[e > 0].min())
     s = float(np.sum(w * np.log(np.maximum(y / xm, 1.0))))
@@ -452,34 +434,52 @@ def _cens_pareto(y: np.ndarray, w: np.ndarray, e: np.ndarray, o: Mapping[str, An
     return {"alpha": float(np.sum(e)) / s, "xm": xm}
 
 
-# uncensored fitters by family; positive families' fitters work at location 0 (see module doc)
+# uncensored fitters of the families without a location option
 FITTERS: dict[str, Fitter] = {
     "normal": _fit_normal,
-    "lognormal": _fit0_lognormal,
-    "exponential": _fit0_exponential,
-    "gamma": _fit0_gamma,
-    "weibull": _fit0_weibull,
     "gumbel": _fit_gumbel,
-    "logistic": _fit_logistic,
-    "loglogistic": _fit0_loglogistic,
-    "pareto": _fit0_pareto,
-    "generalized_pareto": _fit0_gpd,
-    "gev": _fit_gev,
-    "beta": _fit_beta,
-    "uniform": _fit_uniform,
-    "triangular": _fit_triangular,
-    "inverse_gaussian": _fit0_inverse_gaussian,
-    "student_t": _fit_student_t,
-    "rayleigh": _fit0_rayleigh,
     "poisson": _fit_poisson,
     "negative_binomial": _fit_negative_binomial,
     "geometric": _fit_geometric,
     "binomial": _fit_binomial,
 }
-# right-censored fitters with a closed form or a one-dimensional solve (location 0)
+# uncensored fitters of positive families at a given location
+FITTERS0: dict[str, Fitter0] = {
+    "lognormal": _fit0_lognormal,
+    "exponential": _fit0_exponential,
+    "gamma": _fit0_gamma,
+    "weibull": _fit0_weibull,
+    "pareto": _fit0_pareto,
+    "inverse_gaussian": _fit0_inverse_gaussian,
+    "rayleigh": _fit0_rayleigh,
+}
+# parameters each fitter above takes as given when an option fixes them (others: numerically)
+FIXABLE: dict[str, frozenset[str]] = {
+    "normal": frozenset({"mu", "sigma"}),
+    "gumbel": frozenset({"beta"}),
+    "poisson": frozenset({"lambda"}),
+    "negative_binomial": frozenset({"r"}),
+    "geometric": frozenset({"p"}),
+    "binomial": frozenset({"n_trials", "p"}),
+    "lognormal": frozenset({"mu", "sigma"}),
+    "exponential": frozenset({"scale"}),
+    "gamma": frozenset({"shape", "scale"}),
+    "weibull": frozenset({"shape"}),
+    "pareto": frozenset({"alpha", "xm"}),
+    "inverse_gaussian": frozenset({"mu", "lambda"}),
+    "rayleigh": frozenset({"sigma"}),
+}
+# right-censored fitters with a closed form or a one-dimensional solve (location 0), and the
+# parameters they take as given (with others fixed the censored fit is numerical)
 CENSORED_FITTERS: dict[str, CensFitter] = {
     "exponential": _cens_exponential,
     "weibull": _cens_weibull,
     "rayleigh": _cens_rayleigh,
     "pareto": _cens_pareto,
+}
+CENSORED_FIXABLE: dict[str, frozenset[str]] = {
+    "exponential": frozenset(),
+    "weibull": frozenset(),
+    "rayleigh": frozenset(),
+    "pareto": frozenset({"xm"}),
 }

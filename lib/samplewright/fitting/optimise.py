@@ -4,13 +4,14 @@ Three tools cover every family that has no closed-form maximum-likelihood estima
 
 - :func:`maximise` runs Nelder–Mead on an unconstrained parameterisation and restarts it from its
   own answer until a restart gains nothing (a stalled simplex is the usual failure of a single
-  run); the answer is accepted only when two runs agree and the log-likelihood is finite.
+  run); the answer is accepted only when two runs agree and the log-likelihood is finite. At
+  most 12 runs and 1,000 evaluations per free parameter in all: every fit ends in bounded time.
 - :func:`profile_threshold` estimates the location (threshold) of a positive family by a
   one-dimensional search over ``log(min(x) - loc)``, with the other parameters fitted exactly at
   each trial location. It looks for an *interior* maximum: for these families the likelihood grows
   without bound as ``loc`` approaches ``min(x)`` whenever the fitted shape is below 1.
 - one-dimensional score solvers for gamma, weibull (also right-censored), gumbel and negative
-  binomial shape parameters.
+  binomial shape parameters, each with a cap on its steps.
 
 Every objective is a *mean* log-likelihood (divided by the total weight), so tolerances do not
 depend on the sample size.
@@ -24,6 +25,7 @@ import numpy as np
 from scipy import optimize, special
 
 from samplewright.core.errors import FitError, MethodError
+from samplewright.fitting.mle_sums import CHUNK, dot
 
 Params = dict[str, float]
 # How a free parameter maps to the optimiser's unconstrained coordinate v:
@@ -46,14 +48,20 @@ def maximise(
     label: str,
     step: float = 0.1,
     max_runs: int = 12,
+    max_evals: int = 1000,
 ) -> tuple[np.ndarray, float]:
     """Maximise ``objective`` (a mean log-likelihood; -inf outside the domain) from ``start``.
 
-    Returns the maximiser and the maximum. Raises FitError when the start is infeasible or the
-    runs keep improving after ``max_runs`` restarts.
+    Returns the maximiser and the maximum. Raises FitError when the start is infeasible, or when
+    the runs keep improving after ``max_runs`` restarts or ``max_evals`` evaluations per free
+    parameter in all (the bound that keeps every fit finite in time).
     """
+    budget = max_evals * max(int(np.size(start)), 1)
+    used = 0
 
     def nll(v: np.ndarray) -> float:
+        nonlocal used
+        used += 1
         with np.errstate(all="ignore"):
             val = objective(v)
         return -val if np.isfinite(val) else np.inf
@@ -64,6 +72,9 @@ def maximise(
         raise FitError(f"{label}: the starting values give a non-finite log-likelihood")
     d = best_v.size
     for run in range(max_runs):
+        left = budget - used
+        if left <= d + 1:
+            break
         h = step if run == 0 else step / 4.0
         simplex = np.vstack([best_v, best_v + h * np.eye(d)])
         res = optimize.minimize(
@@ -74,8 +85,8 @@ def maximise(
                 "initial_simplex": simplex,
                 "xatol": 1e-8,
                 "fatol": 1e-13,
-                "maxiter": 2000 * d,
-                "maxfev": 4000 * d,
+                "maxiter": min(2000 * d, left),
+                "maxfev": left,
                 "adaptive": d > 2,
             },
         )
@@ -84,7 +95,10 @@ def maximise(
             best_v, best_f = np.asarray(res.x, dtype=np.float64), float(res.fun)
         if run > 0 and gain <= _FTOL:
             return best_v, -best_f
-    raise FitError(f"{label}: the optimiser did not converge after {max_runs} restarts")
+    raise FitError(
+        f"{label}: the optimiser did not converge within {max_runs} restarts and {budget} "
+        "evaluations"
+    )
 
 
 def pack(
@@ -163,9 +177,9 @@ def best_of(
 
 
 def profile_threshold(
-    inner: Callable[[np.ndarray, np.ndarray], tuple[Params, float]],
-    x: np.ndarray,
-    w: np.ndarray,
+    inner: Callable[[float], tuple[Params, float]],
+    xmin: float,
+    xmax: float,
     *,
     label: str,
     shape: str | None,
@@ -173,7 +187,7 @@ def profile_threshold(
 ) -> Params:
     """Fit ``loc`` of a positive family by profiling the likelihood over ``log(min(x) - loc)``.
 
-    ``inner(y, w)`` fits the family with location 0 to ``y = x - loc > 0`` and returns its
+    ``inner(loc)`` fits the family with that location (to ``x - loc > 0``) and returns its
     parameters and log-likelihood. The search takes the highest *interior* local maximum on a
     grid from ``1e-8`` to ``1e3`` times the data range below ``min(x)`` and refines it with a
     bounded Brent search. MethodError when there is none, when it is not above the profile at
@@ -181,20 +195,19 @@ def profile_threshold(
     or when ``shape`` (the name of a shape parameter) ends at or below 1, where the likelihood
     is unbounded as ``loc`` approaches ``min(x)``.
     """
-    xmin = float(x.min())
-    spread = float(np.ptp(x))
+    spread = xmax - xmin
     if spread == 0:
         raise MethodError(f"{label} with loc='free': all values equal {xmin!r}")
+    if not np.isfinite(spread):
+        raise MethodError(f"{label} with loc='free': the values' spread overflows float64")
 
     def profile(t: float) -> tuple[Params, float]:
         loc = xmin - spread * float(np.exp(t))
         try:
             with np.errstate(all="ignore"):
-                p, ll = inner(x - loc, w)
+                p, ll = inner(loc)
         except (FitError, MethodError):
             return {}, -np.inf
-        p = dict(p)
-        p["loc"] = loc
         return p, (ll if np.isfinite(ll) else -np.inf)
 
     ts = np.linspace(np.log(1e-8), np.log(1e3), n_grid)
@@ -224,6 +237,8 @@ def profile_threshold(
     )
     t_best = float(res.x) if -float(res.fun) >= vals[i] else float(ts[i])
     params, _ = profile(t_best)
+    if not params:  # pragma: no cover - the grid point itself was feasible
+        params, _ = profile(float(ts[i]))
     if shape is not None and params[shape] <= 1.0:
         raise MethodError(
             f"{label} with loc='free': fitted {shape} {params[shape]:.3g} <= 1, where the "
@@ -261,63 +276,113 @@ def gamma_shape(s: float) -> float:
     raise FitError("gamma: shape equation did not converge")  # pragma: no cover
 
 
+def _weibull_sums(lz: np.ndarray, w: np.ndarray | None, k: float) -> tuple[float, float, float]:
+    """``sum(w e^{k lz} lz^j)`` for j = 0, 1, 2, in chunks (``lz <= 0``: nothing overflows)."""
+    s0 = s1 = s2 = 0.0
+    for s in range(0, lz.size, CHUNK):
+        lc = lz[s : s + CHUNK]
+        e = np.exp(k * lc)
+        if w is not None:
+            e *= w[s : s + CHUNK]
+        s0 += float(e.sum())
+        e *= lc
+        s1 += float(e.sum())
+        s2 += float(dot(e, lc))
+    return s0, s1, s2
+
+
+def weibull_shape(
+    lz: np.ndarray, w: np.ndarray | None, mean_lz: float, sd_lz: float
+) -> tuple[float, float]:
+    """Weibull MLE shape (location 0) from ``lz = log(y / max y)``; returns ``(k, S0)``.
+
+    Solves ``1/k + mean_lz - sum(w y^k lz) / sum(w y^k) = 0`` where ``mean_lz`` is the mean of
+    ``lz`` over the events (event weights ``e`` with total ``r``; ``e = w`` without censoring)
+    and ``S0 = sum(w e^{k lz})``, so that ``scale = max(y) * (S0 / r)^(1/k)``. The score decreases
+    in ``k`` (its slope is ``-1/k^2`` minus a weighted variance), so Newton's method is kept
+    inside the bracket the signs give, bisecting when a step leaves it; it starts from the
+    uncensored relation ``sd(log y) = pi / (k sqrt 6)``. At most 200 steps; FitError beyond a
+    shape of 1e8 (values nearly constant).
+    """
+    k = float(np.pi / (np.sqrt(6.0) * sd_lz)) if sd_lz > 0 else 1.0
+    if not np.isfinite(k) or k <= 0:
+        k = 1.0
+    lo, hi = 0.0, np.inf
+    for _ in range(200):
+        s0, s1, s2 = _weibull_sums(lz, w, k)
+        m1 = s1 / s0
+        score = 1.0 / k + mean_lz - m1
+        if score == 0:
+            return k, s0
+        slope = -1.0 / (k * k) - max(s2 / s0 - m1 * m1, 0.0)
+        if score > 0:
+            lo = k
+        else:
+            hi = k
+        k_new = k - score / slope
+        if not lo < k_new < hi:
+            k_new = 0.5 * (lo + hi) if np.isfinite(hi) else 2.0 * k
+        if k_new > 1e8:
+            raise FitError("weibull: shape equation has no root below 1e8 (values nearly constant)")
+        if abs(k_new - k) <= 1e-14 * k:
+            return k_new, _weibull_sums(lz, w, k_new)[0]
+        k = k_new
+    raise FitError("weibull: shape equation did not converge in 200 steps")  # pragma: no cover
+
+
 def weibull_shape_scale(y: np.ndarray, w: np.ndarray, e: np.ndarray) -> tuple[float, float]:
     """Weibull MLE (location 0) with weights ``w`` and event weights ``e`` (``e = w`` uncensored).
 
-    Solves ``1/k + sum(e log y)/r - sum(w y^k log y)/sum(w y^k) = 0`` with ``r = sum(e)``, then
-    ``scale^k = sum(w y^k) / r``. Values are divided by ``max(y)`` first (the equation is scale
-    free) so that ``y^k`` cannot overflow.
+    Values are divided by ``max(y)`` first (the equation is scale free) so that ``y^k`` cannot
+    overflow; see :func:`weibull_shape`.
     """
     top = float(y.max())
-    lz = np.log(y / top)
+    with np.errstate(divide="ignore"):
+        lz = np.log(y / top)
+    if not np.all(np.isfinite(lz)):
+        raise FitError("weibull: values span more than float64's range below their maximum")
     r = float(np.sum(e))
-    mean_lz = float(np.sum(e * lz)) / r
-
-    def score(k: float) -> float:
-        wez = w * np.exp(k * lz)  # the array methods: the same sums without np.sum's dispatch
-        return float(1.0 / k + mean_lz - (wez * lz).sum() / wez.sum())
-
-    lo, hi = 1e-3, 1.0
-    while score(hi) > 0:
-        hi *= 2.0
-        if hi > 1e6:
-            raise FitError("weibull: shape equation has no root below 1e6 (data nearly constant)")
-    while score(lo) < 0:
-        lo /= 2.0
-        if lo < 1e-12:
-            raise FitError("weibull: shape equation has no root above 1e-12")
-    k = float(optimize.brentq(score, lo, hi, xtol=1e-14, rtol=1e-14, maxiter=500))
-    scale = top * (float(np.sum(w * np.exp(k * lz))) / r) ** (1.0 / k)
-    return k, scale
+    mean_lz = float(dot(e, lz)) / r
+    sd = float(np.sqrt(dot(e, (lz - mean_lz) ** 2) / r))
+    k, s0 = weibull_shape(lz, w, mean_lz, sd)
+    return k, top * (s0 / r) ** (1.0 / k)
 
 
 def gumbel_fit(x: np.ndarray, w: np.ndarray) -> tuple[float, float]:
     """Gumbel (maxima) MLE: ``beta = mean(x) - sum(w x e^{-x/beta}) / sum(w e^{-x/beta})``.
 
-    Works on ``x - mean(x)`` (the fit is location equivariant) with log-sum-exp weights.
+    Works on ``z = (x - c) / h`` with ``c`` the mid-range and ``h`` the half range (the fit is
+    location and scale equivariant), so nothing overflows whatever the values' magnitude; the
+    root is bracketed in at most about 330 halvings and solved by Brent's method.
     """
-    m = wmean(x, w)
-    z = x - m
-    sd = float(np.sqrt(wmean(z * z, w)))
+    lo, hi = float(x.min()), float(x.max())
+    c, h = 0.5 * lo + 0.5 * hi, 0.5 * hi - 0.5 * lo
+    if not h > 0:
+        raise FitError("gumbel: the values do not vary")
+    z = (x - c) / h
+    wt = float(np.sum(w))
+    shift = float(dot(w, z)) / wt
+    z -= shift  # now mean 0, |z| <= 2
     lw = np.log(w)
 
     def g(beta: float) -> float:
         a = lw - z / beta
         q = np.exp(a - a.max())
-        return float(-np.sum(q * z) / np.sum(q) - beta)
+        return float(-dot(q, z) / np.sum(q) - beta)
 
-    lo, hi = sd * 1e-3, sd
-    while g(lo) < 0:
-        lo /= 10.0
-        if lo < sd * 1e-12:  # pragma: no cover - g(0+) = -min(z) > 0 when the values differ
-            raise FitError("gumbel: scale equation has no positive root")
-    while g(hi) > 0:
-        hi *= 2.0
-    beta = float(optimize.brentq(g, lo, hi, xtol=1e-14 * sd, rtol=1e-14, maxiter=500))
-    a = lw - z / beta
+    b_lo, b_hi = 1e-3, 4.0  # g(4) < 0 since -sum(q z)/sum(q) <= max z <= 2
+    with np.errstate(over="ignore", under="ignore"):
+        while g(b_lo) < 0:
+            b_lo /= 10.0
+            if b_lo < 1e-300:
+                raise FitError("gumbel: scale equation has no positive root")
+        beta = float(
+            optimize.brentq(g, b_lo, b_hi, xtol=1e-300, rtol=4 * np.finfo(float).eps, maxiter=500)
+        )
+        a = lw - z / beta
     amax = float(a.max())
-    mu = m - beta * (amax + float(np.log(np.sum(np.exp(a - amax)))) - float(np.log(np.sum(w))))
-    return mu, beta
+    mu_z = -beta * (amax + float(np.log(np.sum(np.exp(a - amax)))) - float(np.log(wt)))
+    return c + h * (mu_z + shift), h * beta
 
 
 def negbin_r(x: np.ndarray, w: np.ndarray) -> float:
@@ -339,6 +404,8 @@ def negbin_r(x: np.ndarray, w: np.ndarray) -> float:
         )
 
     t0 = float(np.log(m * m / (var - m)))
+    if not np.isfinite(t0):
+        raise FitError(f"negative_binomial: no starting size from mean {m!r}, variance {var!r}")
     lo, hi = t0 - 1.0, t0 + 1.0
     while score(lo) < 0:
         lo -= 2.0

@@ -20,8 +20,13 @@ __all__ = [
     "check",
     "current_plan",
     "draws",
+    "intervals",
+    "joint",
+    "joint_draws",
     "keyed",
     "register",
+    "replicates",
+    "report",
     "rules_path",
     "sampler",
     "targets",
@@ -74,6 +79,24 @@ def _dataset(plan: Plan, name: str) -> str:
     return name
 
 
+def _configured(plan: Plan, name: str, key: str) -> str:
+    _dataset(plan, name)
+    if key not in plan.datasets[name]:
+        raise ConfigError(
+            f"samplewright.datasets.{name}: no {key!r} in the config, so no {key} file is made"
+        )
+    return name
+
+
+def _joint(plan: Plan, name: str) -> str:
+    if name not in plan.joints:
+        raise ConfigError(
+            f"samplewright: no joint input {name!r} in the config (joint: "
+            f"{', '.join(sorted(plan.joints)) or 'none'})"
+        )
+    return name
+
+
 def sampler(name: str) -> Any:
     """Path of the selected sampler artifact of dataset ``name`` (for a rule's ``input:``)."""
     plan = current_plan()
@@ -90,6 +113,39 @@ def check(name: str) -> Any:
     """Path of the check summary (JSON; Markdown beside it) of dataset ``name``."""
     plan = current_plan()
     return plan.lazy(plan.check_path, _dataset(plan, name))
+
+
+def intervals(name: str) -> Any:
+    """Path of the bootstrap intervals (JSON) of dataset ``name`` (its ``intervals`` config)."""
+    plan = current_plan()
+    return plan.lazy(plan.intervals_path, _configured(plan, name, "intervals"))
+
+
+def replicates(name: str) -> Any:
+    """Path of the parameter replicates (one ensemble artifact) of dataset ``name``'s selected
+    method; ``load_sampler`` reads it, ``draw_nested`` separates uncertainty from variability."""
+    plan = current_plan()
+    return plan.lazy(plan.replicates_path, _configured(plan, name, "replicates"))
+
+
+def joint(name: str) -> str:
+    """Path of the joint sampler artifact of joint input ``name``."""
+    plan = current_plan()
+    return plan.joint_path(_joint(plan, name))
+
+
+def joint_draws(name: str) -> str:
+    """Path of the Parquet file of draws of joint input ``name`` (one column per input)."""
+    plan = current_plan()
+    if plan.joints[_joint(plan, name)]["draws"] == 0:
+        raise ConfigError(f"samplewright.joint.{name}.draws: 0, so no draws file is made")
+    return plan.joint_draws_path(name)
+
+
+def report(name: str) -> Any:
+    """Path of the check report (HTML; JSON beside it) of dataset ``name``."""
+    plan = current_plan()
+    return plan.lazy(plan.report_path, _dataset(plan, name))
 
 
 def keyed(template: str, *datasets: str) -> str:
@@ -125,4 +181,6 @@ def targets() -> list[Any]:
             out.append(lambda wildcards, n=name: plan.dataset_targets(n))
         else:
             out.extend(plan.dataset_targets(name))
+    for name in plan.joints:
+        out.extend(plan.joint_targets(name))
     return out

@@ -7,9 +7,26 @@ paths themselves come from the store's :class:`~samplewright.store.layout.StoreL
 
 Keys (:data:`KEY_LEN` hex characters of a sha256 of canonical JSON):
 
-* fit key    = H("fit", data fingerprint, canonical method + options, RESULTS_VERSION)
-* select key = H("select", fit keys of the candidates in order, selection rule, RESULTS_VERSION)
-* draws key  = H("draws", select key, number of draws, root seed, RESULTS_VERSION)
+* fit key        = H("fit", data key, canonical method + options, RESULTS_VERSION)
+* select key     = H("select", fit keys of the candidates in order, selection rule,
+  RESULTS_VERSION)
+* draws key      = H("draws", select key, number of draws, root seed, RESULTS_VERSION
+  [, {"sequence": s} when s is not "random"])
+* intervals key  = H("intervals", data key, the interval items with defaults, root seed,
+  RESULTS_VERSION)
+* replicates key = H("replicates", select key, replicate settings, root seed, RESULTS_VERSION)
+* joint key      = H("joint", table fingerprint, canonical columns + coupling, root seed,
+  RESULTS_VERSION); joint draws key = H("joint_draws", joint key, n, root seed, sequence,
+  RESULTS_VERSION)
+* report key     = H("report", select key, intervals key, replicates key, units,
+  drift threshold, RESULTS_VERSION)
+
+The *data key* is the data fingerprint, or, with one truncation point for every row, a hash of
+the fingerprint and that point (its snapshot is the plain column's). Datasets without a data file
+(knots, quantiles, three_points) are fingerprinted from their points: changing a point changes
+the key, reformatting the config does not. Every random stream a rule uses comes from the root
+seed and stable names (the dataset or joint name, and the purpose: ``draws``, ``intervals``,
+``replicates``, ``check``), never from the order jobs run in.
 
 Bump :data:`RESULTS_VERSION` whenever a change makes any artifact's content differ: that is what
 makes pipelines refit after an upgrade (and only then).
@@ -19,26 +36,33 @@ from __future__ import annotations
 
 import hashlib
 import math
-import shlex
+import re
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
 from samplewright.core.canonical import canonical_json, parse_json
-from samplewright.core.errors import ConfigError, InputDataError, KnotsError
+from samplewright.core.errors import ConfigError, InputDataError, KnotsError, SamplewrightError
 from samplewright.core.versions import RESULTS_VERSION, SNAPSHOT_FORMAT_VERSION
 from samplewright.pipeline.config import (
+    DATA_FREE_KINDS,
     DATASET_PATTERN,
     LABEL_PATTERN,
     READING_OPTIONS,
     SELECTION_RULES,
     MethodSpec,
+    dataset_kind,
     load_config,
     method_specs,
+    table_roles,
 )
+from samplewright.pipeline.config_joint import marginal_specs
+from samplewright.pipeline.plan_args import PlanArgs
 from samplewright.store.layout import StoreLayout
 
 __all__ = ["KEY_LEN", "KEY_PATTERN", "RESULTS_VERSION", "Plan", "content_key", "snapshot_mem_mb"]
+
+_FORMAT_OPTIONS = ("separator", "decimal", "missing_markers", "encoding")
 
 KEY_LEN = 20
 KEY_PATTERN = f"[0-9a-f]{{{KEY_LEN}}}"
@@ -73,7 +97,7 @@ def snapshot_mem_mb(path: str, input_mb: float) -> int:
     return max(SNAPSHOT_MEM_FLOOR_MB, math.ceil(need))
 
 
-class Plan:
+class Plan(PlanArgs):
     """Everything the rules need, derived from the validated config at parse time.
 
     Attributes
@@ -89,6 +113,7 @@ class Plan:
     key_pattern = KEY_PATTERN
     label_pattern = LABEL_PATTERN
     dataset_pattern = DATASET_PATTERN
+    elicited_label_pattern = "quantiles|three_points"
 
     def __init__(self, raw_config: Any, *, checkpoints: Any = None) -> None:
         self.config = load_config(raw_config)
@@ -99,40 +124,145 @@ class Plan:
         self.snapshot_version = SNAPSHOT_FORMAT_VERSION
         self.checkpoints = checkpoints
         self.datasets: dict[str, dict[str, Any]] = self.config["datasets"]
+        self.joints: dict[str, dict[str, Any]] = self.config["joint"]
+        self.kinds = {n: dataset_kind(n, ds) for n, ds in self.datasets.items()}
+        self.roles = {
+            n: table_roles(ds) if self.kinds[n] == "data" else None
+            for n, ds in self.datasets.items()
+        }
         self.specs = {n: method_specs(n, ds) for n, ds in self.datasets.items()}
+        self.joint_specs = {n: marginal_specs(n, e) for n, e in self.joints.items()}
+        self.reports_enabled = False
         self._fps: dict[str, str] = {}
+        self._joint_fps: dict[str, str] = {}
         self._keys: dict[tuple[str, ...], str] = {}
         self._fingerprint_all()
+        self._fit_elicited()
+        from samplewright.pipeline.precheck_plan import precheck_plan
+
+        precheck_plan(self)  # a method that cannot fit the data stops the planning
 
     def _fingerprint_all(self) -> None:
-        from samplewright.store.fingerprints import FingerprintCache
+        from samplewright.pipeline.table_data import TableFingerprints
 
-        cache = FingerprintCache(self.store)
+        cache = TableFingerprints(self.store)
         try:
             for name, ds in self.datasets.items():
-                where = f"samplewright.datasets.{name}"
-                if "knots" in ds:
-                    try:
-                        self._fps[name] = cache.fingerprint_knots(ds["knots"])
-                    except KnotsError as exc:
-                        raise ConfigError(f"{where}.knots: {exc}") from None
-                elif not ds["produced"]:
-                    try:
-                        self._fps[name] = cache.fingerprint(
-                            ds["path"], ds["column"], **{k: ds[k] for k in READING_OPTIONS}
-                        )
-                    except InputDataError as exc:
-                        raise ConfigError(f"{where}: {exc}") from None
+                self._fingerprint_dataset(cache, name, ds)
+            for name, entry in self.joints.items():
+                try:
+                    self._joint_fps[name] = cache.joint(
+                        entry["path"], list(entry["columns"]), **self.reading(entry)
+                    )
+                except InputDataError as exc:
+                    raise ConfigError(f"samplewright.joint.{name}: {exc}") from None
         finally:
             cache.save()
+
+    def _fingerprint_dataset(self, cache: Any, name: str, ds: dict[str, Any]) -> None:
+        from samplewright.store.fingerprints import fingerprint_arrays
+
+        where = f"samplewright.datasets.{name}"
+        kind = self.kinds[name]
+        if kind == "knots":
+            try:
+                self._fps[name] = cache.fingerprint_knots(ds["knots"])
+            except KnotsError as exc:
+                raise ConfigError(f"{where}.knots: {exc}") from None
+        elif kind == "quantiles":
+            q = ds["quantiles"]
+            self._fps[name] = fingerprint_arrays(q["probabilities"] + q["values"])
+        elif kind == "three_points":
+            t = ds["three_points"]
+            self._fps[name] = fingerprint_arrays([t["low"], t["mode"], t["high"]])
+        elif not ds["produced"]:
+            roles = self.roles[name]
+            try:
+                if roles is None:
+                    self._fps[name] = cache.fingerprint(
+                        ds["path"], ds["column"], **{k: ds[k] for k in READING_OPTIONS}
+                    )
+                else:
+                    self._fps[name] = cache.roles(ds["path"], roles, **self.reading(ds))
+            except InputDataError as exc:
+                raise ConfigError(f"{where}: {exc}") from None
+
+    def _fit_elicited(self) -> None:
+        """Fit each quantiles / three_points dataset once, so that points no distribution
+        passes through stop the workflow before any job runs (about 20 ms each)."""
+        for name, kind in self.kinds.items():
+            if kind not in ("quantiles", "three_points"):
+                continue
+            from samplewright.pipeline.elicited import fit_elicited
+
+            try:
+                fit_elicited(kind, self.datasets[name][kind])
+            except SamplewrightError as exc:
+                raise ConfigError(f"samplewright.datasets.{name}.{kind}: {exc}") from None
+
+    @staticmethod
+    def reading(section: dict[str, Any]) -> dict[str, Any]:
+        """The reading options of a dataset or joint entry (missing, infinite, file format)."""
+        keys = ("missing", "infinite", *_FORMAT_OPTIONS)
+        return {k: section[k] for k in keys if k in section}
 
     # -- fingerprints and keys ---------------------------------------------------------------
 
     def is_knots(self, name: str) -> bool:
-        return "knots" in self.datasets[name]
+        return self.kinds[name] == "knots"
+
+    def has_data(self, name: str) -> bool:
+        """Whether the dataset is read from a data file (not knots, quantiles, three_points)."""
+        return self.kinds[name] not in DATA_FREE_KINDS
+
+    def is_table(self, name: str) -> bool:
+        """Whether the dataset's snapshot is a table (truncation / interval columns)."""
+        return self.roles.get(name) is not None
+
+    def is_incomplete(self, name: str) -> bool:
+        """Whether the dataset has truncated or interval rows."""
+        ds = self.datasets[name]
+        return self.is_table(name) or ds.get("truncation") is not None
+
+    def has_check(self, name: str) -> bool:
+        """Whether the check summary rule applies: data read as plain values (a check of
+        truncated or interval rows against a plain empirical CDF would mislead)."""
+        return self.has_data(name) and not self.is_incomplete(name)
 
     def is_produced(self, name: str) -> bool:
         return bool(self.datasets[name].get("produced"))
+
+    def _pattern(self, names: list[str]) -> str:
+        """A wildcard constraint matching exactly ``names`` (none: a pattern matching nothing)."""
+        return "|".join(re.escape(n) for n in sorted(names)) or "(?!)"
+
+    @property
+    def data_pattern(self) -> str:
+        """Datasets read from a data file (the fit rule's constraint)."""
+        return self._pattern([n for n in self.datasets if self.has_data(n)])
+
+    @property
+    def knots_pattern(self) -> str:
+        return self._pattern([n for n, k in self.kinds.items() if k == "knots"])
+
+    @property
+    def elicited_pattern(self) -> str:
+        return self._pattern(
+            [n for n, k in self.kinds.items() if k in ("quantiles", "three_points")]
+        )
+
+    @property
+    def table_pattern(self) -> str:
+        """Names with a table snapshot: incomplete-data datasets and joint inputs."""
+        return self._pattern([n for n in self.datasets if self.is_table(n)] + list(self.joints))
+
+    @property
+    def joint_pattern(self) -> str:
+        return self._pattern(list(self.joints))
+
+    def enable_reports(self) -> None:
+        """Called by a rule file that makes reports: :meth:`dataset_targets` then lists them."""
+        self.reports_enabled = True
 
     def fingerprint(self, name: str) -> str:
         """The data fingerprint; for produced data it is read from the checkpoint's output."""
@@ -158,9 +288,17 @@ class Plan:
                 return s
         raise KeyError(f"{name}/{label}")
 
+    def data_key(self, name: str) -> str:
+        """The fingerprint, with a truncation point shared by every row folded in."""
+        t = self.datasets[name].get("truncation")
+        fp = self.fingerprint(name)
+        if t is None or isinstance(t, str):
+            return fp
+        return hashlib.sha256(canonical_json([fp, {"truncation": float(t)}]).encode()).hexdigest()
+
     def fit_key(self, name: str, label: str) -> str:
         return content_key(
-            "fit", self.fingerprint(name), self.spec(name, label).canonical, self.results_version
+            "fit", self.data_key(name), self.spec(name, label).canonical, self.results_version
         )
 
     def candidates(self, name: str) -> list[MethodSpec]:
@@ -173,7 +311,7 @@ class Plan:
 
     def select_rule(self, name: str) -> str:
         choose = self.datasets[name]["choose"]
-        return choose if choose in SELECTION_RULES else "first"
+        return choose if choose in SELECTION_RULES else "named"  # a label the analyst named
 
     def select_key(self, name: str) -> str:
         keys = [self.fit_key(name, s.label) for s in self.candidates(name)]
@@ -186,7 +324,70 @@ class Plan:
 
     def draws_key(self, name: str) -> str:
         n = self.datasets[name]["draws"]
-        return content_key("draws", self.select_key(name), n, self.root_seed, self.results_version)
+        parts: list[Any] = [self.select_key(name), n, self.root_seed, self.results_version]
+        sequence = self.datasets[name]["sequence"]
+        if sequence != "random":  # plain draws keep the keys they had before sequences existed
+            parts.append({"sequence": sequence})
+        return content_key("draws", *parts)
+
+    def intervals_key(self, name: str) -> str:
+        items = self.datasets[name]["intervals"]
+        return content_key(
+            "intervals", self.data_key(name), items, self.root_seed, self.results_version
+        )
+
+    def replicates_key(self, name: str) -> str:
+        settings = self.datasets[name]["replicates"]
+        return content_key(
+            "replicates", self.select_key(name), settings, self.root_seed, self.results_version
+        )
+
+    def joint_fingerprint(self, name: str) -> str:
+        return self._joint_fps[name]
+
+    def joint_config(self, name: str) -> dict[str, Any]:
+        """What of a joint entry makes its sampler (the columns as ordered pairs)."""
+        e = self.joints[name]
+        return {
+            "columns": [
+                [c, {"method": s.method, "options": s.options}] for c, s in self.joint_specs[name]
+            ],
+            "coupling": e["coupling"],
+            "rank_correlation": e.get("rank_correlation"),
+            "correlation_method": e["correlation_method"],
+        }
+
+    def joint_key(self, name: str) -> str:
+        return content_key(
+            "joint",
+            self.joint_fingerprint(name),
+            self.joint_config(name),
+            self.root_seed,
+            self.results_version,
+        )
+
+    def joint_draws_key(self, name: str) -> str:
+        e = self.joints[name]
+        return content_key(
+            "joint_draws",
+            self.joint_key(name),
+            e["draws"],
+            self.root_seed,
+            e["sequence"],
+            self.results_version,
+        )
+
+    def report_key(self, name: str) -> str:
+        ds = self.datasets[name]
+        return content_key(
+            "report",
+            self.select_key(name),
+            self.intervals_key(name) if "intervals" in ds else None,
+            self.replicates_key(name) if "replicates" in ds else None,
+            ds.get("units"),
+            self.config["report"]["drift_threshold"],
+            self.results_version,
+        )
 
     def keyed_key(self, names: list[str]) -> str:
         """The key of outputs made from the selected samplers of datasets ``names``."""
@@ -196,7 +397,25 @@ class Plan:
     # -- paths (spelled by the store layout) ---------------------------------------------------
 
     def snapshot_path(self, name: str) -> str:
+        """The snapshot fitting reads: a column snapshot, or a table snapshot (roles)."""
+        if not self.has_data(name):
+            raise ConfigError(
+                f"samplewright.datasets.{name}: a {self.kinds[name]} dataset has no data"
+            )
+        if self.is_table(name):
+            return self.layout.table_snapshot(name, self.fingerprint(name)[:KEY_LEN])
         return self.layout.snapshot(name, self.fingerprint(name)[:KEY_LEN])
+
+    def joint_snapshot_path(self, name: str) -> str:
+        return self.layout.table_snapshot(name, self.joint_fingerprint(name)[:KEY_LEN])
+
+    def table_fingerprint(self, name: str) -> str:
+        """The fingerprint of a table snapshot's source: a dataset's roles or a joint input."""
+        return self.joint_fingerprint(name) if name in self.joints else self.fingerprint(name)
+
+    def table_source(self, name: str) -> str:
+        """The data file a table snapshot of ``name`` (dataset or joint input) reads."""
+        return str((self.joints.get(name) or self.datasets[name])["path"])
 
     def fit_path(self, name: str, label: str) -> str:
         return self.layout.sampler(name, label, self.fit_key(name, label))
@@ -216,12 +435,40 @@ class Plan:
     def fingerprint_record(self, name: str) -> str:
         return self.layout.produced(name)
 
+    def intervals_path(self, name: str) -> str:
+        return self.layout.intervals(name, self.intervals_key(name))
+
+    def replicates_path(self, name: str) -> str:
+        return self.layout.replicates(name, self.replicates_key(name))
+
+    def joint_path(self, name: str) -> str:
+        return self.layout.joint(name, self.joint_key(name))
+
+    def joint_draws_path(self, name: str) -> str:
+        return self.layout.joint_draws(name, self.joint_draws_key(name))
+
+    def report_path(self, name: str) -> str:
+        return self.layout.report(name, self.report_key(name))
+
     def dataset_targets(self, name: str) -> list[str]:
+        ds = self.datasets[name]
         out = [self.selected_path(name)]
-        if not self.is_knots(name):
+        if self.has_check(name):
             out.append(self.check_path(name))
-        if self.datasets[name]["draws"] > 0:
+        if ds["draws"] > 0:
             out.append(self.draws_path(name))
+        if "intervals" in ds:
+            out.append(self.intervals_path(name))
+        if "replicates" in ds:
+            out.append(self.replicates_path(name))
+        if self.reports_enabled:
+            out.append(self.report_path(name))
+        return out
+
+    def joint_targets(self, name: str) -> list[str]:
+        out = [self.joint_path(name)]
+        if self.joints[name]["draws"] > 0:
+            out.append(self.joint_draws_path(name))
         return out
 
     # -- for rule definitions ----------------------------------------------------------------
@@ -231,36 +478,6 @@ class Plan:
         if self.is_produced(name):
             return lambda wildcards: fn(name)
         return fn(name)
-
-    def snapshot_args(self, name: str) -> str:
-        """Command-line arguments naming the column, weights, censoring and cleaning policy."""
-        ds = self.datasets[name]
-        args = ["--column", ds["column"]]
-        for opt in ("weights", "censor"):
-            if ds.get(opt):
-                args += [f"--{opt}", ds[opt]]
-        args += ["--missing", ds["missing"], "--infinite", ds["infinite"]]
-        # file-format options only when set, so existing workflows keep their arguments
-        if ds.get("separator") is not None:
-            args += ["--separator", ds["separator"]]
-        if ds.get("decimal", ".") != ".":
-            args += ["--decimal", ds["decimal"]]
-        for marker in ds.get("missing_markers") or []:
-            args.append(f"--missing-marker={marker}")  # one word: a marker may start with '-'
-
-        if ds.get("encoding") is not None:
-            args += ["--encoding", ds["encoding"]]
-        return " ".join(shlex.quote(a) for a in args)
-
-    def fit_args(self, name: str, label: str) -> str:
-        """Command-line arguments for fitting candidate ``label`` of dataset ``name``."""
-        import json
-
-        spec = self.spec(name, label)
-        args = ["--method", spec.method]
-        for k, v in sorted(spec.options.items()):
-            args += ["--option", f"{k}={json.dumps(v)}"]
-        return " ".join(shlex.quote(a) for a in args)
 
     def snapshot_mem_mb(self, path: str, input_mb: float) -> int:
         """Declared memory of the snapshot job reading ``path`` of ``input_mb`` MB."""

@@ -6,12 +6,20 @@ Layout
   sampler, ``x`` and ``p`` for a piecewise-linear CDF, no columns and no rows for a parametric one.
   All columns are float64. Any Parquet reader can open it.
 * The schema metadata holds one key, ``samplewright``, whose value is a JSON document (field list
-  in the README, "Artifact format"). Its ``content_hash`` covers the canonical content: the
-  payload columns as little-endian float64 (name, length, bytes, in table order) followed by the
+  in the README, "Artifact format"). Its ``content_hash`` is BLAKE3 (written ``blake3:`` and 64
+  hex digits) of the canonical content: the prefix ``samplewright-content-v2``, the payload
+  columns as little-endian float64 (``|name|length|`` then the bytes, in table order) and the
   sorted-key JSON of ``format_version``, ``sampler``, ``fingerprint``, ``key``, ``data`` and
   ``diagnostics``. It is independent of the Parquet writer, of the time and of the host, so the
-  same fit on a laptop and on a cluster gives the same content hash. ``record_hash`` covers the
-  whole JSON document (provenance included) plus the payload, so any edit is detected.
+  same fit on a laptop and on a cluster gives the same content hash. ``record_hash`` is BLAKE3 of
+  the prefix ``samplewright-record-v2`` and the whole JSON document but itself (provenance and
+  ``content_hash`` included, so the payload too), so any edit is detected while the payload is
+  hashed once, on write and on load.
+* The payload's order is part of what the content hash covers, so a sampler rebuilt from a
+  verified payload may trust the order it was written in (an empirical sampler's sorted values).
+* Artifacts of the first format (``sha256:`` hashes, samplewright before the BLAKE3 change) are
+  refused with a one-line error asking for them to be written again; nothing was released with
+  them.
 * The metadata is stored once, as the file's key-value metadata (see :mod:`.tables`); a file
   that also carries it in a stored Arrow schema is refused unless both copies are equal.
 * Writing is atomic (:mod:`.atomic`): a killed job never leaves a half-written artifact under a
@@ -24,12 +32,13 @@ No pickle is used anywhere: loading an artifact cannot run code.
 from __future__ import annotations
 
 import datetime as _dt
-import hashlib
 import platform
+import sys
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+import blake3
 import numpy as np
 import pyarrow as pa
 
@@ -37,7 +46,7 @@ from samplewright.core.canonical import canonical_bytes, parse_json
 from samplewright.core.errors import ArtifactError, IntegrityError, SamplewrightError
 from samplewright.core.versions import ARTIFACT_FORMAT_VERSION
 from samplewright.distributions.base import Sampler
-from samplewright.store.tables import read_table, write_table
+from samplewright.store.tables import FloatColumnError, read_float_columns, write_table
 
 __all__ = [
     "FORMAT_VERSION",
@@ -52,42 +61,71 @@ __all__ = [
 FORMAT_VERSION = ARTIFACT_FORMAT_VERSION
 METADATA_KEY = b"samplewright"
 _HASHED = ("format_version", "sampler", "fingerprint", "key", "data", "diagnostics")
+_HASH = "blake3"
+_CONTENT_PREFIX = b"samplewright-content-v2"
+_RECORD_PREFIX = b"samplewright-record-v2"
+_PARALLEL_BYTES = 1 << 20  # hash payloads above 1 MiB on every core
 
 
-def _hash_payload(h: Any, payload: Mapping[str, np.ndarray]) -> None:
-    for name, arr in payload.items():
-        canon = np.ascontiguousarray(np.asarray(arr, dtype=np.float64), dtype="<f8")
-        h.update(f"|{name}|{canon.size}|".encode())
-        h.update(canon.tobytes())
+def _le_float64(arr: Any) -> np.ndarray:
+    """``arr`` as one contiguous little-endian float64 vector (a view when it already is one)."""
+    return np.ascontiguousarray(np.asarray(arr, dtype="<f8")).reshape(-1)
+
+
+def _arrow(values: np.ndarray) -> pa.Array:
+    """A float64 Arrow array over ``values``'s memory (no copy; unlike ``pa.array``, no pandas
+    import: pyarrow 26 loads pandas to inspect any Python object it converts)."""
+    return pa.Array.from_buffers(pa.float64(), values.size, [None, pa.py_buffer(values)])
 
 
 def content_hash(payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> str:
-    """sha256 of the canonical content (see module docstring)."""
-    h = hashlib.sha256(b"samplewright-content-v1")
-    _hash_payload(h, payload)
+    """BLAKE3 of the canonical content (see module docstring), as ``"blake3:<64 hex>"``.
+
+    The payload is hashed where it lies (no copy of a float64 vector), on every core when it is
+    large.
+    """
+    columns = {name: _le_float64(arr) for name, arr in payload.items()}
+    size = sum(c.nbytes for c in columns.values())
+    threads = blake3.blake3.AUTO if size > _PARALLEL_BYTES else 1
+    h = blake3.blake3(_CONTENT_PREFIX, max_threads=threads)
+    for name, canon in columns.items():
+        h.update(f"|{name}|{canon.size}|".encode())
+        h.update(canon.view(np.uint8).data)
     h.update(canonical_bytes({k: meta.get(k) for k in _HASHED}))
-    return "sha256:" + h.hexdigest()
+    return f"{_HASH}:{h.hexdigest()}"
 
 
-def _record_hash(payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> str:
-    h = hashlib.sha256(b"samplewright-record-v1")
-    _hash_payload(h, payload)
+def _record_hash(meta: Mapping[str, Any]) -> str:
+    """BLAKE3 of the whole metadata but ``record_hash`` (the payload enters via content_hash)."""
+    h = blake3.blake3(_RECORD_PREFIX)
     h.update(canonical_bytes({k: v for k, v in meta.items() if k != "record_hash"}))
-    return "sha256:" + h.hexdigest()
+    return f"{_HASH}:{h.hexdigest()}"
+
+
+def _installed(name: str) -> str:
+    """The version of library ``name``: from the module if it is loaded, else from its installed
+    metadata (recording it imports no scipy or pandas into a job that needs neither)."""
+    module = sys.modules.get(name)
+    version = getattr(module, "__version__", None)
+    if isinstance(version, str):
+        return version
+    from importlib import metadata
+
+    try:
+        return metadata.version(name)
+    except metadata.PackageNotFoundError:
+        return "not installed"
 
 
 def _versions() -> dict[str, str]:
-    import pandas
-    import scipy
-
     from samplewright import __version__
 
     return {
         "samplewright": __version__,
         "python": platform.python_version(),
         "numpy": np.__version__,
-        "scipy": scipy.__version__,
-        "pandas": pandas.__version__,
+        "scipy": _installed("scipy"),
+        "pandas": _installed("pandas"),
         "pyarrow": pa.__version__,
     }
 
@@ -109,7 +147,7 @@ def write_sampler(
     >>> d = tempfile.mkdtemp()
     >>> meta = write_sampler(from_knots([0, 1], [0, 1]), os.path.join(d, "u.parquet"))
     >>> meta["sampler"]["method"], meta["content_hash"][:7]
-    ('knots', 'sha256:')
+    ('knots', 'blake3:')
     """
     path = Path(path)
     payload = sampler.payload()
@@ -129,25 +167,18 @@ def write_sampler(
             "created_at": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds"),
             "versions": _versions(),
         }
-        meta["record_hash"] = _record_hash(payload, meta)
+        meta["record_hash"] = _record_hash(meta)
         text = canonical_bytes(meta)
     except (TypeError, ValueError) as exc:
         raise ArtifactError(f"{path}: the sampler's metadata cannot be stored ({exc})") from None
-    table = pa.table({k: pa.array(np.asarray(v, dtype=np.float64)) for k, v in payload.items()})
+    columns = {k: _le_float64(v) for k, v in payload.items()}
+    table = pa.Table.from_arrays([_arrow(v) for v in columns.values()], names=list(columns))
     write_table(path, table, {METADATA_KEY: text}, compression="zstd")
     return meta
 
 
-def _read(path: Path) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
-    if not path.is_file():
-        raise ArtifactError(f"{path}: artifact not found")
-    try:
-        table, raw = read_table(path, METADATA_KEY)
-    except IntegrityError:
-        raise
-    except Exception as exc:
-        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
-        raise ArtifactError(f"{path}: not a readable Parquet file ({reason})") from None
+def _parse(path: Path, raw: bytes | None) -> dict[str, Any]:
+    """The samplewright metadata of an artifact, checked for its shape and format version."""
     if raw is None:
         raise ArtifactError(f"{path}: no samplewright metadata (not a samplewright artifact)")
     try:
@@ -163,17 +194,25 @@ def _read(path: Path) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
         )
     if not isinstance(meta.get("sampler"), dict):
         raise ArtifactError(f"{path}: metadata field 'sampler' is not a JSON object")
-    names = table.column_names
-    if len(set(names)) != len(names):
-        raise ArtifactError(f"{path}: payload column names repeat ({', '.join(names)})")
-    payload = {}
-    for i, field in enumerate(table.schema):
-        if not pa.types.is_float64(field.type):
-            raise ArtifactError(
-                f"{path}: payload column {field.name!r} is {field.type}, expected double"
-            )
-        payload[field.name] = table.column(i).to_numpy().astype(np.float64, copy=False)
-    return payload, meta
+    return meta
+
+
+def _read(path: Path) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
+    if not path.is_file():
+        raise ArtifactError(f"{path}: artifact not found")
+    found: list[dict[str, Any]] = []
+    try:  # the metadata is checked before any payload column is decoded
+        payload, _ = read_float_columns(
+            path, METADATA_KEY, before=lambda raw: found.append(_parse(path, raw))
+        )
+    except SamplewrightError:
+        raise
+    except FloatColumnError as exc:
+        raise ArtifactError(f"{path}: payload {exc}") from None
+    except Exception as exc:
+        reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        raise ArtifactError(f"{path}: not a readable Parquet file ({reason})") from None
+    return payload, found[0]
 
 
 def read_metadata(path: str | Path, *, verify: bool = True) -> dict[str, Any]:
@@ -185,9 +224,15 @@ def read_metadata(path: str | Path, *, verify: bool = True) -> dict[str, Any]:
 
 
 def _verify(path: Path, payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> None:
+    stored = meta.get("content_hash")
+    if isinstance(stored, str) and stored.startswith("sha256:"):
+        raise ArtifactError(
+            f"{path}: written by an older samplewright (sha256 content hash, before "
+            f"{_HASH}); write it again with this version (fit, or the workflow's fit rule)"
+        )
     try:
         expected = content_hash(payload, meta)
-        record = _record_hash(payload, meta)
+        record = _record_hash(meta)
     except (TypeError, ValueError) as exc:
         raise IntegrityError(f"{path}: metadata cannot be hashed ({exc})") from None
     if meta.get("content_hash") != expected:

@@ -8,6 +8,13 @@ A store is one folder (``store:`` in the workflow configuration)::
     <store>/selected/<dataset>/<key>.parquet          the sampler chosen among the candidates
     <store>/draws/<dataset>/<key>.parquet             draws for consumers outside Python
     <store>/checks/<dataset>/<key>.json (and .md)     check summaries
+    <store>/tables/<name>/<fingerprint>.parquet       table snapshots (joint inputs; datasets
+                                                      whose truncation, lower, upper are columns)
+    <store>/intervals/<dataset>/<key>.json            bootstrap intervals of the data
+    <store>/replicates/<dataset>/<key>.parquet        parameter replicates of the selected method
+    <store>/joint/<name>/<key>.parquet                joint samplers
+    <store>/joint_draws/<name>/<key>.parquet          draws of joint samplers (one column each)
+    <store>/reports/<dataset>/<key>.html (and .json)  check reports
     <store>/produced/<dataset>.json                   fingerprints of data a workflow makes
     <store>/logs/<step>/...log                        one log per job
     <store>/benchmarks/<step>/...tsv                  benchmarks of the heavy jobs
@@ -79,6 +86,34 @@ class StoreLayout:
     def check_markdown(self, dataset: str, key: str) -> str:
         """The Markdown written beside :meth:`check`."""
         return self._join("checks", dataset, f"{key}.md")
+
+    def table_snapshot(self, name: str, fingerprint: str) -> str:
+        """Table snapshot of ``name`` (several row-aligned columns) with ``fingerprint``."""
+        return self._join("tables", name, f"{fingerprint}.parquet")
+
+    def intervals(self, dataset: str, key: str) -> str:
+        """Bootstrap intervals (JSON) of ``dataset`` under intervals key ``key``."""
+        return self._join("intervals", dataset, f"{key}.json")
+
+    def replicates(self, dataset: str, key: str) -> str:
+        """Parameter replicates (one ensemble artifact) of ``dataset`` under ``key``."""
+        return self._join("replicates", dataset, f"{key}.parquet")
+
+    def joint(self, name: str, key: str) -> str:
+        """Joint sampler ``name`` under joint key ``key``."""
+        return self._join("joint", name, f"{key}.parquet")
+
+    def joint_draws(self, name: str, key: str) -> str:
+        """Draws of joint sampler ``name`` (one column per input) under ``key``."""
+        return self._join("joint_draws", name, f"{key}.parquet")
+
+    def report(self, dataset: str, key: str) -> str:
+        """Check report (HTML) of ``dataset`` under report key ``key``."""
+        return self._join("reports", dataset, f"{key}.html")
+
+    def report_json(self, dataset: str, key: str) -> str:
+        """The JSON written beside :meth:`report`."""
+        return self._join("reports", dataset, f"{key}.json")
 
     def produced(self, dataset: str) -> str:
         """Fingerprint record of a dataset made by the workflow (the checkpoint's output)."""

@@ -30,6 +30,10 @@ geometric           p                           failures before the first succes
 binomial            n_trials, p                 successes in n_trials trials (binom)
 ==================  ==========================  ================================================
 
+Any parameter can be held fixed in a fit by passing it as an option under its own name
+(:mod:`samplewright.fitting.mle`); fixed parameters are stored like the others.
+:meth:`Family.support` gives scipy's support for given parameters without scipy's overhead.
+
 ``gev`` stores the extreme-value convention's ``xi`` (xi > 0: heavy upper tail, Fréchet type;
 xi < 0: bounded above, Weibull type); scipy's ``genextreme`` uses ``c = -xi``. The discrete
 families count from 0, so ``geometric`` is ``negative_binomial`` with ``r = 1``.

@@ -9,7 +9,10 @@ from __future__ import annotations
 
 import argparse
 import json
-from collections.abc import Iterable, Mapping
+import sys
+import warnings
+from collections.abc import Iterable, Iterator, Mapping
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
@@ -21,10 +24,15 @@ __all__ = [
     "EXIT_INPUT",
     "EXIT_INTEGRITY",
     "add_data_args",
+    "add_reading_args",
+    "add_seed_args",
     "check_expected",
     "check_outputs",
+    "check_seed",
+    "notes",
     "parse_option",
     "reading",
+    "table_reading",
 ]
 
 EXIT_INPUT = 2
@@ -38,6 +46,11 @@ def add_data_args(p: argparse.ArgumentParser, *, column_required: bool = True) -
     p.add_argument("--column", "-c", required=column_required, help="name of the value column")
     p.add_argument("--weights", help="name of a column of positive (frequency) weights")
     p.add_argument("--censor", help="name of a 0/1 column; 1 = value is right-censored")
+    add_reading_args(p)
+
+
+def add_reading_args(p: argparse.ArgumentParser) -> None:
+    """The cleaning policies and file-format options of reading a data file."""
     p.add_argument(
         "--missing",
         choices=["error", "drop"],
@@ -73,12 +86,12 @@ def reading(args: argparse.Namespace) -> dict[str, Any]:
     The file-format options appear only when given, so the result also suits readers of
     snapshots and caches that take the column roles alone.
     """
-    out: dict[str, Any] = {
-        "weights": args.weights,
-        "censor": args.censor,
-        "missing": args.missing,
-        "infinite": args.infinite,
-    }
+    return {"weights": args.weights, "censor": args.censor, **table_reading(args)}
+
+
+def table_reading(args: argparse.Namespace) -> dict[str, Any]:
+    """The options of :func:`add_reading_args`: policies, and the format options when given."""
+    out: dict[str, Any] = {"missing": args.missing, "infinite": args.infinite}
     if args.separator is not None:
         out["separator"] = args.separator
     if args.decimal != ".":
@@ -124,6 +137,41 @@ def check_outputs(outputs: Mapping[str, PathArg], inputs: Iterable[PathArg]) -> 
                 raise MethodError(
                     f"{option} {out}: is the input {source}; refusing to overwrite an input"
                 )
+
+
+def add_seed_args(p: argparse.ArgumentParser, *, required: bool = True, default: str) -> None:
+    """``--seed`` (the root seed) and ``--stream`` (stable names under it, repeatable)."""
+    p.add_argument("--seed", type=int, required=required, help="root seed, a non-negative int")
+    p.add_argument(
+        "--stream",
+        action="append",
+        metavar="NAME",
+        help=f"stream name under the root seed, repeatable (default: {default})",
+    )
+
+
+def check_seed(seed: int | None) -> None:
+    """Refuse a negative ``--seed`` in one line."""
+    if seed is not None and seed < 0:
+        raise MethodError(f"--seed: expected a non-negative int, found {seed}")
+
+
+@contextmanager
+def notes() -> Iterator[None]:
+    """Print the warnings raised inside as ``samplewright: note: ...`` lines on stderr.
+
+    A command's warnings (a repaired correlation matrix, a Sobol' size that is not a power of
+    two) are part of its report, not a Python traceback, and reach the job's log once each.
+    """
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        yield
+    seen: set[str] = set()
+    for w in caught:
+        text = str(w.message)
+        if text not in seen:
+            seen.add(text)
+            print(f"samplewright: note: {text}", file=sys.stderr)
 
 
 def check_expected(label: str, fp: str, expected: str | None) -> None:

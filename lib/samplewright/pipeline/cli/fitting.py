@@ -1,4 +1,10 @@
-"""Commands that make sampler artifacts: ``fit`` (from data) and ``knots`` (a drawn CDF)."""
+"""Commands that make sampler artifacts: ``fit`` (from data) and ``knots`` (a drawn CDF).
+
+``fit`` reads one value column (with weights and right-censoring flags), or several columns by
+role for incomplete data: a truncation column (``--truncation COLUMN``; a number applies to every
+row) and interval rows (``--lower``/``--upper`` instead of ``--column``; grouped counts as
+``--weights``), read by :func:`samplewright.pipeline.table_data.read_roles`.
+"""
 
 from __future__ import annotations
 
@@ -12,9 +18,16 @@ from samplewright.pipeline.cli.common import (
     check_outputs,
     parse_option,
     reading,
+    table_reading,
+)
+from samplewright.pipeline.cli.method_help import (
+    FIT_USAGE,
+    check_method_name,
+    methods_epilog,
+    print_recorded_warnings,
 )
 
-__all__ = ["add_commands", "one_line", "run_fit", "run_knots"]
+__all__ = ["add_commands", "one_line", "roles_from_args", "run_fit", "run_knots"]
 
 
 def one_line(sampler: Any) -> str:
@@ -30,26 +43,127 @@ def one_line(sampler: Any) -> str:
     return text
 
 
+def _number(text: str | None) -> float | None:
+    """``text`` as a number, or None when it is not one (then it names a column)."""
+    if text is None:
+        return None
+    try:
+        return float(text)
+    except ValueError:
+        return None
+
+
+def roles_from_args(args: argparse.Namespace) -> dict[str, str] | None:
+    """The columns by role when the fit needs several (truncation column, interval rows)."""
+    interval = args.lower is not None or args.upper is not None
+    t_column = args.truncation is not None and _number(args.truncation) is None
+    if not interval and not t_column:
+        return None
+    roles: dict[str, str] = {}
+    if interval:
+        if args.lower is None or args.upper is None:
+            raise MethodError("--lower/--upper: interval rows need both columns")
+        for flag, value in (("--column", args.column), ("--censor", args.censor)):
+            if value is not None:
+                raise MethodError(
+                    f"{flag}: interval rows (--lower, --upper) take no {flag}; an upper end of "
+                    "inf marks a right-censored row"
+                )
+        roles["lower"], roles["upper"] = args.lower, args.upper
+    else:
+        if args.column is None:
+            raise MethodError("--column: required (or --lower and --upper for interval rows)")
+        roles["value"] = args.column
+    if t_column:
+        roles["truncation"] = args.truncation
+    if args.weights is not None:
+        roles["weight"] = args.weights
+    if args.censor is not None:
+        roles["censor"] = args.censor
+    return roles
+
+
+def _fit_roles(args: argparse.Namespace, roles: dict[str, str], options: dict[str, Any]) -> int:
+    """Fit from columns by role (truncation column, interval rows); write the artifact."""
+    from samplewright.fitting.api import fit
+    from samplewright.fitting.interval_api import fit_interval
+    from samplewright.pipeline.table_data import read_roles
+    from samplewright.store.artifacts import write_sampler
+
+    table = read_roles(args.data, roles, **table_reading(args))
+    check_expected(str(args.data), table.fingerprint, args.expect_fingerprint)
+    t = table.get("truncation") if "truncation" in roles else _number(args.truncation)
+    w = table.get("weight")
+    used = [repr(roles[r]) for r in ("value", "lower", "upper") if r in roles]
+    names = f"column {used[0]}" if len(used) == 1 else f"columns {', '.join(used)}"
+    try:
+        if "lower" in roles:
+            sampler = fit_interval(
+                table.arrays["lower"], table.arrays["upper"], args.method,
+                truncation=t, weights=w, **options,
+            )  # fmt: skip
+        else:
+            c = table.get("censor")
+            sampler = fit(
+                table.arrays["value"], args.method, weights=w,
+                censored=None if c is None else c == 1.0, truncation=t, **options,
+            )  # fmt: skip
+    except SamplewrightError as exc:
+        raise type(exc)(f"{names} in {table.source}: {exc}") from None
+    c = table.get("censor")
+    data_section = {
+        "n_obs": table.n,
+        "n_rows_read": table.n_rows_read,
+        "dropped": table.dropped,
+        "weighted": w is not None,
+        "censored": int((c == 1.0).sum()) if c is not None else 0,
+        "truncated": True if "truncation" in roles else t is not None,
+        "interval_rows": "lower" in roles,
+    }
+    write_sampler(
+        sampler,
+        args.out,
+        fingerprint=table.fingerprint,
+        key=args.key,
+        data=data_section,
+        diagnostics=getattr(sampler, "diagnostics", {}) or {},
+        provenance={
+            "source": table.source,
+            "columns": roles,
+            "truncation": t if "truncation" not in roles else None,
+            "options": options,
+            "read_from": str(args.data),
+        },
+    )
+    print(f"{args.out}: {one_line(sampler)}")
+    print_recorded_warnings(sampler)  # one stderr line each; the fit still succeeds
+    return 0
+
+
 def run_fit(args: argparse.Namespace) -> int:
     """Fit a method to a data file or snapshot and write the artifact."""
-    from samplewright.fitting.api import fit, known_methods
+    from samplewright.fitting.api import fit
     from samplewright.store.artifacts import write_sampler
     from samplewright.store.fingerprints import fingerprint_column
     from samplewright.store.snapshots import read_data
 
     options = dict(parse_option(o) for o in args.option or [])
-    if args.method not in known_methods():
-        raise MethodError(
-            f"--method: unknown method {args.method!r}; expected one of: "
-            f"{', '.join(known_methods())}"
-        )
+    check_method_name(args.method, options)  # the nearest name for a typo
     check_outputs({"--out": args.out}, [args.data])
+    roles = roles_from_args(args)
+    if roles is not None:
+        return _fit_roles(args, roles, options)
+    truncation = _number(args.truncation)
+    if truncation is not None:
+        options_fit = {**options, "truncation": truncation}
+    else:
+        options_fit = options
     data, snap = read_data(args.data, args.column, **reading(args))
     fp = fingerprint_column(data)
     check_expected(str(args.data), fp, args.expect_fingerprint)
     try:
         sampler = fit(
-            data.values, args.method, weights=data.weights, censored=data.censored, **options
+            data.values, args.method, weights=data.weights, censored=data.censored, **options_fit
         )
     except SamplewrightError as exc:  # too few values, values outside the support, ...
         where = snap["source"] if snap else args.data
@@ -85,9 +199,11 @@ def run_fit(args: argparse.Namespace) -> int:
             "censor_column": origin.get("censor_column"),
             "options": options,
             "read_from": str(args.data),
+            **({"truncation": truncation} if truncation is not None else {}),
         },
     )
     print(f"{args.out}: {one_line(sampler)}")
+    print_recorded_warnings(sampler)  # one stderr line each; the fit still succeeds
     return 0
 
 
@@ -110,18 +226,28 @@ def run_knots(args: argparse.Namespace) -> int:
         provenance={"source": str(args.file) if args.file else "--points"},
     )
     print(f"{args.out}: {one_line(sampler)}")
+    print_recorded_warnings(sampler)  # one stderr line each; the fit still succeeds
     return 0
 
 
 def add_commands(sub: Any) -> None:
     """Add ``fit`` and ``knots`` to the subcommand parsers ``sub``."""
-    p = sub.add_parser("fit", help="fit a sampler to a data column and write an artifact")
+    p = sub.add_parser(
+        "fit",
+        help="fit a sampler to a data column and write an artifact",
+        usage=FIT_USAGE,
+        epilog=methods_epilog(),
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
     add_data_args(p, column_required=False)
+    column = next(a for a in p._actions if "--column" in a.option_strings)
+    column.help = "name of the value column (required for a data file; a snapshot names its own)"
     p.add_argument(
         "--method",
         "-m",
         required=True,
-        help="empirical, interpolated, or a family (normal, lognormal, gamma, ...)",
+        metavar="METHOD",
+        help="a method of the catalog (listed below with its options)",
     )
     p.add_argument(
         "--option",
@@ -129,6 +255,16 @@ def add_commands(sub: Any) -> None:
         action="append",
         metavar="KEY=VALUE",
         help="method option, repeatable (values parsed as JSON, e.g. loc=0.5)",
+    )
+    p.add_argument(
+        "--truncation",
+        metavar="NUM|COLUMN",
+        help="lower truncation: one number for every row, or a column of per-row points "
+        "(deductibles, delayed entry; -inf = none)",
+    )
+    p.add_argument("--lower", metavar="COLUMN", help="interval rows: column of lower ends")
+    p.add_argument(
+        "--upper", metavar="COLUMN", help="interval rows: column of upper ends (inf: censored)"
     )
     p.add_argument("--out", required=True, help="artifact path (.parquet)")
     p.add_argument("--key", help="content key to record (set by the workflow rules)")

@@ -1,4 +1,8 @@
-"""Commands that read artifacts and write nothing: ``show`` and ``verify``."""
+"""Commands that read artifacts and write nothing: ``show`` and ``verify``.
+
+Their text goes through :func:`~samplewright.pipeline.cli.output.emit`, so piping it into a
+reader that stops early (``samplewright show x.parquet | head``) ends quietly.
+"""
 
 from __future__ import annotations
 
@@ -9,21 +13,23 @@ from typing import Any
 
 from samplewright.core.errors import IntegrityError, SamplewrightError
 from samplewright.pipeline.cli.common import EXIT_INPUT, EXIT_INTEGRITY
+from samplewright.pipeline.cli.output import emit
 
 __all__ = ["add_commands", "run_show", "run_verify"]
 
 
 def run_show(args: argparse.Namespace) -> int:
-    """Describe a (verified) artifact, as text or as its full metadata in JSON."""
-    from samplewright.check.render import format_show
+    """Describe a (verified) artifact, as text (names and rounded values in columns, the
+    recorded warnings, every diagnostics section in full) or as its full metadata in JSON."""
+    from samplewright.check.show_text import format_show
     from samplewright.store.artifacts import load_sampler
 
     sampler = load_sampler(args.artifact)
     meta = sampler.metadata
     if args.json:
-        print(json.dumps(meta, indent=2, sort_keys=True))
+        emit(json.dumps(meta, indent=2, sort_keys=True))
         return 0
-    print(format_show(args.artifact, sampler, meta))
+    emit(format_show(args.artifact, sampler, meta))
     return 0
 
 
@@ -38,15 +44,15 @@ def run_verify(args: argparse.Namespace) -> int:
         try:
             meta = verify_artifact(path)
         except IntegrityError as exc:
-            print(f"FAIL {exc}")
+            emit(f"FAIL {exc}")
             failures.append(str(exc))
             status = EXIT_INTEGRITY
         except SamplewrightError as exc:
-            print(f"FAIL {exc}")
+            emit(f"FAIL {exc}")
             failures.append(str(exc))
             status = status or EXIT_INPUT
         else:
-            print(f"ok   {path}: {meta['sampler']['method']} {meta['content_hash'][:19]}")
+            emit(f"ok   {path}: {meta['sampler']['method']} {meta['content_hash'][:19]}")
     if failures:
         print(
             f"samplewright: error: {len(failures)} of {len(args.artifacts)} artifact(s) failed;"
@@ -58,7 +64,14 @@ def run_verify(args: argparse.Namespace) -> int:
 
 def add_commands(sub: Any) -> None:
     """Add ``show`` and ``verify`` to the subcommand parsers ``sub``."""
-    p = sub.add_parser("show", help="describe an artifact (verified first)")
+    p = sub.add_parser(
+        "show",
+        help="describe an artifact (verified first)",
+        description="Describe an artifact after verifying it: method, parameters, support, "
+        "moments, the data it was fitted to, the selection, recorded warnings and every "
+        "diagnostics section (numbers rounded to 6 significant digits; --json for the exact "
+        "metadata).",
+    )
     p.add_argument("artifact")
     p.add_argument("--json", action="store_true", help="print the full metadata as JSON")
     p.set_defaults(func=run_show)

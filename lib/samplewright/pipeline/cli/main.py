@@ -16,13 +16,24 @@ from typing import NoReturn
 
 from samplewright import __version__
 from samplewright.core.errors import IntegrityError, SamplewrightError
-from samplewright.pipeline.cli import data, draws, fitting, inspect, workflow
+from samplewright.pipeline.cli import (
+    data,
+    draws,
+    elicit,
+    fitting,
+    inspect,
+    joint,
+    resample,
+    store_tools,
+    tables,
+    workflow,
+)
 from samplewright.pipeline.cli.common import EXIT_INPUT, EXIT_INTEGRITY
 
 __all__ = ["UsageError", "build_parser", "main"]
 
 # in the order `samplewright --help` lists them
-GROUPS = (fitting, draws, inspect, data, workflow)
+GROUPS = (fitting, joint, elicit, draws, resample, inspect, store_tools, data, tables, workflow)
 
 
 class UsageError(Exception):

@@ -1,22 +1,30 @@
-"""Commands the workflow rules run over candidates: ``select`` and ``check``.
+"""Commands the workflow rules run over candidates: ``select``, ``check`` and ``report``.
 
-:func:`select_artifacts` and :func:`write_check` do the file work around the pure ranking of
-:mod:`samplewright.check.selection` and the rendering of :mod:`samplewright.check.render`.
+:func:`select_artifacts` does the file work around the pure ranking of
+:mod:`samplewright.check.selection`; :func:`~samplewright.pipeline.cli.check_files.write_check`
+and :func:`~samplewright.pipeline.cli.check_files.write_report` the file work of the check
+summary and the report page.
 """
 
 from __future__ import annotations
 
 import argparse
-import json
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
-from samplewright.check.selection import SELECTION_RULES
+from samplewright.check.selection import RANKING_RULES
 from samplewright.core.errors import MethodError
 from samplewright.pipeline.cli.common import check_outputs
 
-__all__ = ["add_commands", "run_check", "run_select", "select_artifacts", "write_check"]
+__all__ = [
+    "add_commands",
+    "run_check",
+    "run_report",
+    "run_select",
+    "select_artifacts",
+    "write_check",
+]
 
 
 def select_artifacts(
@@ -64,27 +72,13 @@ def write_check(
     out: str | Path,
     dataset: str = "",
     column: str | None = None,
+    **options: Any,
 ) -> dict[str, Any]:
-    """Write the check summary as JSON to ``out`` and as Markdown beside it (``.md``).
+    """Write the check summary (JSON, Markdown beside); see
+    :func:`samplewright.pipeline.cli.check_files.write_check` for ``options``."""
+    from samplewright.pipeline.cli.check_files import write_check as write
 
-    ``data_path`` is a snapshot (its column is known) or a data file with ``column``.
-    """
-    from samplewright.check.render import check_summary, render_check_markdown
-    from samplewright.store.artifacts import load_sampler
-    from samplewright.store.atomic import write_text
-    from samplewright.store.snapshots import read_data
-
-    data, _ = read_data(data_path, column)
-    samplers = [load_sampler(c) for c in candidates]
-    doc = check_summary(
-        data.values, samplers, weights=data.weights, censored=data.censored, dataset=dataset
-    )
-    out = Path(out)
-    text = json.dumps(doc, indent=2, allow_nan=False) + "\n"
-    md = render_check_markdown(doc, title=dataset or str(data_path))
-    write_text(out, text)
-    write_text(out.with_suffix(".md"), md)
-    return doc
+    return write(data_path, candidates, out=out, dataset=dataset, column=column, **options)
 
 
 def run_select(args: argparse.Namespace) -> int:
@@ -95,33 +89,181 @@ def run_select(args: argparse.Namespace) -> int:
     return 0
 
 
-def run_check(args: argparse.Namespace) -> int:
-    """Write the check summary of the candidates against the data."""
-    out = Path(args.out)
+def _json_out(option: str, path: str | Path) -> Path:
+    out = Path(path)
     if out.suffix.lower() != ".json":
-        raise MethodError(f"--out: expected a .json file, found {out.name!r}")
-    inputs = [args.data, *args.candidates]
-    check_outputs({"--out": out, "--out (its .md)": out.with_suffix(".md")}, inputs)
-    write_check(args.data, args.candidates, out=out, dataset=args.dataset, column=args.column)
-    print(f"{args.out}: check written for {len(args.candidates)} candidate(s)")
+        raise MethodError(f"{option}: expected a .json file, found {out.name!r}")
+    return out
+
+
+def _html_out(option: str, path: str | Path) -> Path:
+    out = Path(path)
+    if out.suffix.lower() != ".html":
+        raise MethodError(f"{option}: expected a .html file, found {out.name!r}")
+    return out
+
+
+def _threshold(value: float | None) -> float | None:
+    if value is not None and not 0.0 < value <= 1.0:
+        raise MethodError(f"--drift-threshold: expected a KS distance in (0, 1], found {value}")
+    return value
+
+
+def run_check(args: argparse.Namespace) -> int:
+    """Write the check summary of the candidates against the data (and the report page)."""
+    from samplewright.pipeline.cli.check_files import write_check as write
+
+    out = _json_out("--out", args.out)
+    html = _html_out("--html", args.html) if args.html else None
+    if args.gof_resamples < 0:
+        raise MethodError(f"--gof-resamples: expected an int >= 0, found {args.gof_resamples}")
+    if args.seed < 0:
+        raise MethodError(f"--seed: expected a non-negative int, found {args.seed}")
+    inputs = [args.data, *args.candidates, args.selected]
+    outputs = {"--out": out, "--out (its .md)": out.with_suffix(".md")}
+    if html is not None:
+        outputs.update({"--html": html, "--html (its .json)": html.with_suffix(".json")})
+    check_outputs(outputs, inputs)
+    summary = write(
+        args.data,
+        args.candidates,
+        out=out,
+        dataset=args.dataset,
+        column=args.column,
+        labels=args.label,
+        selected=args.selected,
+        store=args.store,
+        units=args.units or "",
+        drift_threshold=_threshold(args.drift_threshold),
+        gof_resamples=args.gof_resamples,
+        seed=args.seed,
+        streams=args.stream or ["check"],
+        allow_other_data=args.allow_other_data,
+        html=html,
+    )
+    chosen = summary.get("selected")
+    what = f"; selected {chosen['label']} ({chosen['reason']})" if chosen else ""
+    print(f"{args.out}: check written for {len(args.candidates)} candidate(s){what}")
+    from samplewright.check.report_model import ReportWarning
+    from samplewright.pipeline.cli.output import warn
+
+    warn(ReportWarning(w["kind"], w["message"]) for w in summary.get("warnings") or [])
+    return 0
+
+
+def run_report(args: argparse.Namespace) -> int:
+    """Write the report page (and its JSON) of a dataset's candidates."""
+    from samplewright.core.canonical import parse_json
+    from samplewright.pipeline.cli.check_files import write_report
+
+    out = _html_out("--out", args.out)
+    inputs = [args.check, args.data, *args.candidates, args.selected, args.intervals]
+    check_outputs(
+        {"--out": out, "--out (its .json)": out.with_suffix(".json")}, [*inputs, args.replicates]
+    )
+    summary = None
+    if args.check is not None:
+        summary = parse_json(Path(args.check).read_bytes())
+        if not isinstance(summary, dict) or "candidates" not in summary:
+            raise MethodError(f"--check {args.check}: not a check summary")
+    write_report(
+        args.candidates,
+        out=out,
+        data_path=args.data,
+        summary=summary,
+        dataset=args.dataset,
+        column=args.column,
+        labels=args.label,
+        selected=args.selected,
+        store=args.store,
+        units=args.units or "",
+        drift_threshold=_threshold(args.drift_threshold),
+        intervals=args.intervals,
+        replicates=args.replicates,
+    )
+    print(f"{args.out}: report written for {len(args.candidates)} candidate(s)")
     return 0
 
 
 def add_commands(sub: Any) -> None:
-    """Add ``select`` and ``check`` to the subcommand parsers ``sub``."""
+    """Add ``select``, ``check`` and ``report`` to the subcommand parsers ``sub``."""
     p = sub.add_parser("select", help="pick one of several candidate artifacts (workflow use)")
     p.add_argument("candidates", nargs="+")
     p.add_argument(
-        "--by", choices=SELECTION_RULES, default="aic", help="selection rule (default: aic)"
+        "--by",
+        choices=RANKING_RULES,
+        default="aic",
+        help="selection rule (default: aic); 'named': the first candidate, named by the analyst",
     )
     p.add_argument("--key", help="content key to record")
     p.add_argument("--out", required=True)
     p.set_defaults(func=run_select)
 
-    p = sub.add_parser("check", help="write a short check summary of candidates vs the data")
+    p = sub.add_parser(
+        "check",
+        help="check candidates against the data: a summary (JSON, Markdown) and a report page",
+        description="Compare candidate samplers with the data they were fitted to. Refuses "
+        "candidates fitted to other data (their recorded fingerprint differs from the data's). "
+        "Says which candidate was selected (--selected) and why, tests plain parametric "
+        "candidates by a parametric bootstrap, lists every warning, and compares the selection "
+        "with the previous one of the dataset found in --store.",
+    )
     p.add_argument("data", help="data file or snapshot")
-    p.add_argument("candidates", nargs="+")
-    p.add_argument("--dataset", default="", help="dataset name for the heading")
-    p.add_argument("--column", "-c", help="value column (not needed for a snapshot)")
+    p.add_argument("candidates", nargs="+", help="candidate artifacts (.parquet)")
+    _shared_report_args(p)
+    p.add_argument("--selected", help="the selected artifact (says which candidate and why)")
+    p.add_argument("--store", help="store folder to look for the dataset's previous selection")
+    p.add_argument(
+        "--gof-resamples",
+        type=int,
+        default=99,
+        help="bootstrap replicates of the goodness-of-fit test of plain parametric candidates "
+        "(default 99; 0: no test)",
+    )
+    p.add_argument("--seed", type=int, default=0, help="root seed of the tests (default 0)")
+    p.add_argument(
+        "--stream", action="append", metavar="NAME", help="stream name, repeatable (default: check)"
+    )
+    p.add_argument(
+        "--allow-other-data",
+        action="store_true",
+        help="compare candidates fitted to other data instead of refusing them (with a warning)",
+    )
     p.add_argument("--out", required=True, help="summary path (.json; a .md is written beside)")
+    p.add_argument("--html", help="also write the report page here (.html; a .json beside)")
     p.set_defaults(func=run_check)
+
+    p = sub.add_parser(
+        "report",
+        help="write the report page (HTML, JSON beside) of a dataset's candidates",
+        description="Write the check report page of a dataset: what the simulation will draw, "
+        "every warning, how much the choice of sampler matters, pictures and details. With "
+        "--check it takes the goodness-of-fit tests, warnings and previous selection from a "
+        "check summary; --data is optional (none for a drawn CDF or elicited quantiles).",
+    )
+    p.add_argument("candidates", nargs="+", help="candidate artifacts (.parquet)")
+    p.add_argument("--data", help="data file, column snapshot or table snapshot")
+    p.add_argument("--check", help="the check summary (.json) of the same candidates")
+    _shared_report_args(p)
+    p.add_argument("--selected", help="the selected artifact (says which candidate and why)")
+    p.add_argument("--store", help="store folder to look for the previous selection (no --check)")
+    p.add_argument("--intervals", help="bootstrap intervals of the data (.json, from 'interval')")
+    p.add_argument("--replicates", help="replicates of the selected method (.parquet)")
+    p.add_argument("--out", required=True, help="report page (.html; a .json is written beside)")
+    p.set_defaults(func=run_report)
+
+
+def _shared_report_args(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--dataset", default="", help="dataset name for the heading")
+    p.add_argument(
+        "--column", "-c", help="value column (required for a data file, not for a snapshot)"
+    )
+    p.add_argument(
+        "--label", action="append", metavar="NAME", help="candidate label, one per candidate"
+    )
+    p.add_argument("--units", help="units of the values, for the axis labels")
+    p.add_argument(
+        "--drift-threshold",
+        type=float,
+        help="KS distance to the previous selection that flags drift (default 0.05)",
+    )

@@ -4,8 +4,8 @@
   list of intervals): bootstrap confidence intervals of named statistics of a data column (iid
   or block schemes), written as JSON;
 * ``replicate DATA --column C --method M`` (or ``--method-from ARTIFACT``, e.g. the selected
-  sampler, whose method and options it reuses): parameter replicates of a method as one
-  ensemble artifact (Parquet, like any sampler);
+  sampler, whose method and options it reuses; for an ``auto`` sampler, the family it chose):
+  parameter replicates of a method as one ensemble artifact (Parquet, like any sampler);
 * ``spread ARTIFACT ...``: key quantiles and tail mean of a dataset's candidate samplers and
   their spread, optionally with intervals from replicate ensembles, as Markdown or JSON;
 * ``mc-error DRAWS --statistic S ...``: Monte Carlo standard errors and intervals of statistics
@@ -262,7 +262,13 @@ def _method_and_options(args: argparse.Namespace) -> tuple[str, dict[str, Any]]:
 
     meta = read_metadata(args.method_from)
     options = (meta.get("provenance") or {}).get("options") or {}
-    return str(meta["sampler"]["method"]), dict(options)
+    method = str(meta["sampler"]["method"])
+    if method == "auto":  # replicate the family auto chose, not the whole ranking per replicate
+        family = meta["sampler"].get("family")
+        if not isinstance(family, str):
+            raise MethodError(f"--method-from {args.method_from}: an 'auto' sampler without family")
+        return family, {}
+    return method, dict(options)
 
 
 def run_spread(args: argparse.Namespace) -> int:
