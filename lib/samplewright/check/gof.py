@@ -159,8 +159,8 @@ def _sorted_stats(u: np.ndarray) -> np.ndarray:
     cvm = 1.0 / (12 * n) + np.einsum("...i,...i->...", d, d)
     np.log(u, out=d)
     d *= odd
-    np.negative(u, out=u)
-    np.log1p(u, out=u)
+    np.subtract(1.0, u, out=u)  # exact for u >= 1/2, else off by <= 2^-53: log1p not needed
+    np.log(u, out=u)
     u *= odd[::-1]
     d += u
     ad = -n - d.sum(axis=-1) / n

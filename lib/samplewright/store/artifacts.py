@@ -255,12 +255,20 @@ def verify_artifact(path: str | Path) -> dict[str, Any]:
     return meta
 
 
+# kinds whose payload holds other samplers (their parts are rebuilt through SAMPLER_KINDS)
+_NESTING_KINDS = frozenset({"joint", "point_mass", "averaged", "ensemble"})
+
+
 def _build(path: Path, payload: Mapping[str, np.ndarray], meta: Mapping[str, Any]) -> Sampler:
     described = meta.get("sampler") or {}
     kind = described.get("kind")
     from samplewright.fitting.registry import sampler_class
 
     cls = sampler_class(str(kind))  # imports that kind's module only
+    if kind in _NESTING_KINDS:  # samplers made of samplers rebuild their parts by kind too
+        from samplewright.fitting.registry import load_sampler_kinds
+
+        load_sampler_kinds()
     if cls is None:
         raise ArtifactError(f"{path}: unknown sampler kind {kind!r} (newer samplewright?)")
     try:
