@@ -145,12 +145,12 @@ def test_cdf_interpolated_between_exact_anchors_keeps_tail_accuracy(name, gen, n
 def test_a_location_is_honoured() -> None:
     """loc = 5 fits the shifted values and records loc; the CDF matches the shifted fit."""
     rows = 5.0 + np.random.default_rng(2).gamma(2.5, 1.0, (4, 200))
-    out = fit_rows("gamma", rows, {"loc": 5.0})
+    out = fit_rows("gamma", rows, options={"loc": 5.0})
     np.testing.assert_array_equal(out.params["loc"], 5.0)
     for i, expected in enumerate(_checked("gamma", rows, loc=5.0)):
         assert expected is not None
         assert out.params["shape"][i] == pytest.approx(expected["shape"], rel=1e-10)
-    u = refit_cdf_rows("gamma", rows, {"loc": 5.0})
+    u = refit_cdf_rows("gamma", rows, options={"loc": 5.0})
     assert u is not None
     expected_u = (
         get_family("gamma").bound(_checked("gamma", rows[:1], loc=5.0)[0]).cdf(np.sort(rows[0]))
@@ -203,15 +203,17 @@ def test_families_and_options_without_a_batch_path() -> None:
     """No batch path: refit_cdf_rows says None, fit_rows fits every row by the checked fit."""
     rows = np.random.default_rng(9).logistic(0.0, 2.0, (3, 50))
     assert refit_cdf_rows("logistic", rows) is None
-    assert refit_cdf_rows("gamma", np.abs(rows) + 1.0, {"loc": "free"}) is None
-    assert refit_cdf_rows("gamma", np.abs(rows) + 1.0, {"shape": 2.0}) is None  # a fixed shape
+    assert refit_cdf_rows("gamma", np.abs(rows) + 1.0, options={"loc": "free"}) is None
+    assert (
+        refit_cdf_rows("gamma", np.abs(rows) + 1.0, options={"shape": 2.0}) is None
+    )  # a fixed shape
     out = fit_rows("logistic", rows)
     assert out.n_batched == 0 and out.n_failed == 0
     for i, expected in enumerate(_checked("logistic", rows)):
         assert expected is not None
         assert out.params["mu"][i] == pytest.approx(expected["mu"], rel=1e-12)
     with pytest.raises(MethodError, match="unknown option"):
-        fit_rows("gamma", np.abs(rows) + 1.0, {"bogus": 2.0})
+        fit_rows("gamma", np.abs(rows) + 1.0, options={"bogus": 2.0})
 
 
 def test_rows_must_be_two_dimensional() -> None:
@@ -272,7 +274,7 @@ def test_sorted_replicate_rows_are_sorted_draws_from_the_fitted_member(
 ) -> None:
     """Rows come sorted and, pooled, pass a KS test against the fitted member (scipy)."""
     g = np.random.default_rng(3)
-    rows = batch_fits.sorted_replicate_rows(name, params, options, (40, 250), g)
+    rows = batch_fits.sorted_replicate_rows(name, params, (40, 250), options=options, rng=g)
     assert rows is not None and rows.shape == (40, 250)
     assert np.all(np.diff(rows, axis=1) >= 0)
     # source: scipy.stats.kstest against the scipy distribution (reference library); a sorted
@@ -287,7 +289,7 @@ def test_weibull_rows_at_location_zero_give_the_same_null_statistics() -> None:
 
     params = {"shape": 0.7, "scale": 5.0, "loc": 0.0}
     g = np.random.default_rng(12)
-    fast = batch_fits.sorted_replicate_rows("weibull", params, {}, (3000, 40), g)
+    fast = batch_fits.sorted_replicate_rows("weibull", params, (3000, 40), options={}, rng=g)
     plain = get_family("weibull").draw(params, (3000, 40), g)
     assert fast is not None
     u_fast, u_plain = refit_cdf_rows("weibull", fast), refit_cdf_rows("weibull", plain)
@@ -300,6 +302,12 @@ def test_weibull_rows_at_location_zero_give_the_same_null_statistics() -> None:
 def test_sorted_replicate_rows_only_where_offered() -> None:
     """Other families, a free location or a fixed shape: None (the caller draws as usual)."""
     g = np.random.default_rng(0)
-    assert batch_fits.sorted_replicate_rows("gamma", {}, {}, (2, 5), g) is None
-    assert batch_fits.sorted_replicate_rows("exponential", {}, {"loc": "free"}, (2, 5), g) is None
-    assert batch_fits.sorted_replicate_rows("weibull", {}, {"shape": 2.0}, (2, 5), g) is None
+    assert batch_fits.sorted_replicate_rows("gamma", {}, (2, 5), options={}, rng=g) is None
+    assert (
+        batch_fits.sorted_replicate_rows("exponential", {}, (2, 5), options={"loc": "free"}, rng=g)
+        is None
+    )
+    assert (
+        batch_fits.sorted_replicate_rows("weibull", {}, (2, 5), options={"shape": 2.0}, rng=g)
+        is None
+    )

@@ -374,3 +374,39 @@ def test_report_shows_replicate_and_data_intervals(tmp_path: Path, run_cli) -> N
     row = json.loads(intervals.read_text())["intervals"][0]
     assert (data_ci["low"], data_ci["high"]) == (row["low"], row["high"])
     assert "95%: [" in page.read_text()
+
+
+def test_report_rule_arguments_follow_the_dataset(tmp_path: Path) -> None:
+    """Data datasets pass their check summary, snapshot and units; a drawn CDF passes none."""
+    from samplewright.pipeline.plan import Plan
+    from samplewright.pipeline.report_args import label_args, optional_input, report_args
+
+    data = _csv(tmp_path / "d.csv", np.random.default_rng(19).gamma(2.0, 3.0, 50))
+    knots = tmp_path / "k.csv"
+    knots.write_text("x,p\n0,0\n5,0.5\n9,1\n")
+    plan = Plan(
+        {
+            "store": str(tmp_path / "store"),
+            "datasets": {
+                "hours": {
+                    "path": str(data),
+                    "column": "hours",
+                    "units": "hours",
+                    "methods": ["gamma", "empirical"],
+                    "choose": "empirical",
+                },
+                "wait": {"knots": str(knots)},
+            },
+        }
+    )
+    args = report_args(plan, "hours")
+    assert f"--check {plan.check_path('hours')}" in args
+    assert f"--data {plan.snapshot_path('hours')}" in args and "--units hours" in args
+    assert label_args(plan, "hours") == "--label empirical --label gamma"  # named one first
+    assert report_args(plan, "wait") == ""
+    assert optional_input(plan, "data", "wait") == [] == optional_input(plan, "check", "wait")
+    assert optional_input(plan, "data", "hours", lambda p: ("wrapped", p)) == [
+        ("wrapped", plan.snapshot_path("hours"))
+    ]
+    with pytest.raises(ValueError, match="what"):
+        optional_input(plan, "nothing", "hours")

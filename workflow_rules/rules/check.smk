@@ -8,32 +8,9 @@
 #              one category per dataset.
 
 
+import samplewright.pipeline.report_args as _sw_report_args
+
 SW.enable_reports()
-
-
-def _sw_labels(wc):
-    return " ".join(f"--label {s.label}" for s in SW.candidates(wc.dataset))
-
-
-def _sw_report_args(wc):
-    import shlex
-
-    ds, args = SW.datasets[wc.dataset], []
-    if SW.has_check(wc.dataset):
-        args += ["--check", SW.check_path(wc.dataset)]
-    if SW.has_data(wc.dataset):
-        args += ["--data", SW.snapshot_path(wc.dataset)]
-    if ds.get("units"):
-        args += ["--units", ds["units"]]
-    if "intervals" in ds:
-        args += ["--intervals", SW.intervals_path(wc.dataset)]
-    if "replicates" in ds:
-        args += ["--replicates", SW.replicates_path(wc.dataset)]
-    return " ".join(shlex.quote(a) for a in args)
-
-
-def _sw_optional(fn, when):
-    return lambda wc: [ancient(fn(wc.dataset))] if when(wc.dataset) else []
 
 
 rule sw_check:
@@ -50,8 +27,8 @@ rule sw_check:
         key=SW.key_pattern,
     params:
         results_version=SW.results_version,
-        labels=_sw_labels,
-        store=SW.layout.root,
+        labels=lambda wc: _sw_report_args.label_args(SW, wc.dataset),
+        store=lambda wc: SW.layout.root,
         seed=SW.root_seed,
         threshold=SW.config["report"]["drift_threshold"],
     log:
@@ -70,10 +47,10 @@ rule sw_report:
     input:
         candidates=lambda wc: [ancient(p) for p in SW.candidate_paths(wc.dataset)],
         selected=lambda wc: ancient(SW.selected_path(wc.dataset)),
-        check=_sw_optional(SW.check_path, SW.has_check),
-        data=_sw_optional(SW.snapshot_path, SW.has_data),
-        intervals=_sw_optional(SW.intervals_path, lambda d: "intervals" in SW.datasets[d]),
-        replicates=_sw_optional(SW.replicates_path, lambda d: "replicates" in SW.datasets[d]),
+        check=lambda wc: _sw_report_args.optional_input(SW, "check", wc.dataset, ancient),
+        data=lambda wc: _sw_report_args.optional_input(SW, "data", wc.dataset, ancient),
+        intervals=lambda wc: _sw_report_args.optional_input(SW, "intervals", wc.dataset, ancient),
+        replicates=lambda wc: _sw_report_args.optional_input(SW, "replicates", wc.dataset, ancient),
     output:
         html=report(
             SW.layout.report("{dataset}", "{key}"),
@@ -88,8 +65,8 @@ rule sw_report:
         key=SW.key_pattern,
     params:
         results_version=SW.results_version,
-        labels=_sw_labels,
-        args=_sw_report_args,
+        labels=lambda wc: _sw_report_args.label_args(SW, wc.dataset),
+        args=lambda wc: _sw_report_args.report_args(SW, wc.dataset),
         threshold=SW.config["report"]["drift_threshold"],
     log:
         SW.layout.log("report", "{dataset}", "{key}"),

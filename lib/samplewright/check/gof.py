@@ -239,7 +239,7 @@ def edf_statistics(
 def _closed_form_u(name: str, sims: np.ndarray, options: Mapping[str, Any]) -> np.ndarray | None:
     """Fitted CDF values of each replicate row, sorted, refitted for the whole batch at once
     (rows of NaN where the batch refit declines: the checked refit decides), or None."""
-    return refit_cdf_rows(name, sims, options)
+    return refit_cdf_rows(name, sims, options=options)
 
 
 def _bootstrap(
@@ -260,7 +260,7 @@ def _bootstrap(
 
     def simulate(shape: tuple[int, int], gen: np.random.Generator) -> np.ndarray:
         if resolution is None:  # drawn already sorted where offered (not for rounded ones)
-            rows = sorted_replicate_rows(family.name, out.params, options, shape, gen)
+            rows = sorted_replicate_rows(family.name, out.params, shape, options=options, rng=gen)
             if rows is not None:
                 return rows
         sims = family.draw(out.params, shape, gen)

@@ -290,8 +290,9 @@ def _batch(
 def sorted_replicate_rows(
     family: str,
     params: Mapping[str, float],
-    options: Mapping[str, Any],
     shape: tuple[int, int],
+    *,
+    options: Mapping[str, Any],
     rng: np.random.Generator,
 ) -> np.ndarray | None:
     """Replicate rows for a goodness-of-fit bootstrap of a fit, drawn already sorted.
@@ -333,7 +334,7 @@ def sorted_replicate_rows(
 
 
 def refit_cdf_rows(
-    family: str, rows: np.ndarray, options: Mapping[str, Any] | None = None
+    family: str, rows: np.ndarray, *, options: Mapping[str, Any] | None = None
 ) -> np.ndarray | None:
     """Each row sorted and mapped through the CDF of the family refitted to that row.
 
@@ -365,7 +366,7 @@ def refit_cdf_rows(
 
 
 def fit_rows(
-    family: str, rows: np.ndarray, options: Mapping[str, Any] | None = None
+    family: str, rows: np.ndarray, *, options: Mapping[str, Any] | None = None
 ) -> BatchFitResult:
     """Maximum-likelihood fit of ``family`` to each row of ``rows``, batched where possible.
 
