@@ -46,6 +46,7 @@ CAUTION = (
 )
 POOR_FIT_P = 0.01
 _PROBS = (0.5, 0.9, 0.99, 0.999)
+_TEST_NAMES = {"ks": "KS", "ad": "AD", "cvm": "CvM"}
 _KIND_NAMES = {
     "small_n": "few observations",
     "ties": "ties or rounding",
@@ -270,7 +271,7 @@ def _gof_sentence(chosen: Mapping[str, Any]) -> str:
             "families; see the distances below)."
         )
     pv = {k: v for k, v in (gof.get("pvalues") or {}).items() if v is not None}
-    tests = ", ".join(f"{k.upper()} p = {v:.3g}" for k, v in pv.items())
+    tests = ", ".join(f"{_TEST_NAMES.get(k, k)} p = {v:.3g}" for k, v in pv.items())
     reps = f"{gof.get('n_resamples')} bootstrap replicates"
     if not gof.get("reliable", True):
         return (
