@@ -42,7 +42,7 @@ def ensure_venv() -> None:
         venv.EnvBuilder(with_pip=True).create(VENV)
     pip = [str(PY), "-m", "pip", "install", "--disable-pip-version-check", "-q"]
     subprocess.run([*pip, "--upgrade", "pip"], check=True)
-    subprocess.run([*pip, "-e", f"{ROOT}[test,reports,slurm]"], check=True)
+    subprocess.run([*pip, "-e", f"{ROOT}[test,slurm]"], check=True)
     STAMP.write_text(_wanted_stamp())
 
 

@@ -75,3 +75,17 @@ def test_no_import_runs_against_the_stage_order(path: Path) -> None:
         if stage is not None and LAYERS.index(stage) > mine:
             bad.append(f"line {line}: {module}")
     assert bad == [], f"{rel} imports a later stage: {bad}"
+
+
+def test_the_wheel_lists_every_subpackage() -> None:
+    """pyproject.toml names each package directory, so an installed wheel is never missing one."""
+    import tomllib
+
+    config = tomllib.loads((PKG.parents[1] / "pyproject.toml").read_text())
+    listed = set(config["tool"]["setuptools"]["packages"])
+    on_disk = {
+        ".".join(init.parent.relative_to(PKG.parent).parts)
+        for init in PKG.rglob("__init__.py")
+        if "__pycache__" not in init.parts
+    }
+    assert on_disk - listed == set()
