@@ -91,7 +91,11 @@ def main(argv: list[str]) -> int:
     ensure_venv()
     task, rest = argv[0], argv[1:]
     if task == "test":
-        return run([str(PY), "-m", "pytest", *rest])
+        # The whole suite (no arguments): test files spread over the cores by xdist, files that
+        # share the example pipeline's run kept on one worker (tests/conftest.py), slowest listed.
+        whole = [] if rest else ["-n", str(min(2, os.cpu_count() or 1)), "--dist", "loadgroup"]
+        whole += [] if rest else ["--durations=25"]
+        return run([str(PY), "-m", "pytest", *whole, *rest])
     if task == "check":
         return check()
     if task == "bench":

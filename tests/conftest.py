@@ -32,3 +32,19 @@ def listing(folder: Path) -> list[str]:
 def names_in() -> Callable[[Path], list[str]]:
     """The sorted names (hidden ones included) of the entries of a folder."""
     return listing
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    """Under xdist (``dev.py test``), keep each test file on one worker, and every test that uses
+    the example pipeline's one run (the ``pipeline`` fixture) on the same worker, so module- and
+    session-scoped fixtures are built once."""
+    if not config.pluginmanager.hasplugin("xdist"):
+        return
+    sharing = {
+        item.nodeid.split("::")[0]
+        for item in items
+        if "pipeline" in getattr(item, "fixturenames", ())
+    }
+    for item in items:
+        file = item.nodeid.split("::")[0]
+        item.add_marker(pytest.mark.xdist_group("example-pipeline" if file in sharing else file))

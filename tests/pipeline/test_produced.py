@@ -47,7 +47,7 @@ def produced(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 def test_produced_data_runs_and_then_plans_nothing(produced: Path) -> None:
     """The first run fingerprints the ingested file by checkpoint; a rerun plans nothing."""
-    assert (produced / "results" / "report.txt").read_text().count("chosen by") == 1
+    assert (produced / "results" / "report.txt").read_text().count("selected by") == 1
     assert len(list((produced / "store" / "selected" / "clean_hours").glob("*.parquet"))) == 1
     assert nothing_to_do(snakemake(produced, "-n"))
 

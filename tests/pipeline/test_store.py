@@ -104,7 +104,7 @@ def test_a_wrong_fingerprint_memo_fails_once_then_plans_right(pipeline: Path) ->
     memo_path = pipeline / "store" / "fingerprints.json"
     original = memo_path.read_text()
     memo = json.loads(original)
-    key = next(k for k in memo if '"hours"' in k and "repairs.csv" in k)
+    key = next(k for k in memo if json.loads(k)[1] == "hours" and "repairs.csv" in k)
     entry = memo[key]
     wrong = "0123456789abcdef" * 4
     info = {k: entry[k] for k in ("size", "mtime_ns", "inode")}

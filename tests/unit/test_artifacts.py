@@ -199,11 +199,13 @@ def test_metadata_is_one_plain_json_key(tmp_path: Path) -> None:
 
 
 def test_parametric_payload_is_an_empty_table(tmp_path: Path) -> None:
-    """A parametric artifact has no columns and no rows; its parameters live in the metadata."""
+    """A parametric artifact has no rows and one empty placeholder column (readers such as
+    duckdb need a column); its parameters live in the metadata, the payload stays empty."""
     path = tmp_path / "g.parquet"
     write_sampler(SAMPLERS["gamma"](), path)
     t = pq.read_table(path)
-    assert (t.num_columns, t.num_rows) == (0, 0)
+    assert (t.column_names, t.num_rows) == (["no_payload"], 0)
+    assert load_sampler(path).payload() == {}
     assert set(_meta(path)["sampler"]["params"]) == {"shape", "scale", "loc"}
 
 

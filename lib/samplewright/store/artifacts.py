@@ -3,8 +3,10 @@
 Layout
 ------
 * The table holds the payload and nothing else: ``value`` (and ``weight``) for an empirical
-  sampler, ``x`` and ``p`` for a piecewise-linear CDF, no columns and no rows for a parametric one.
-  All columns are float64. Any Parquet reader can open it.
+  sampler, ``x`` and ``p`` for a piecewise-linear CDF; a sampler without payload (a parametric
+  one) gets a single empty column ``no_payload`` (zero rows), because some readers (duckdb)
+  refuse a Parquet file without columns. The placeholder is not part of the payload nor of the
+  content hash. All columns are float64. Any Parquet reader can open it.
 * The schema metadata holds one key, ``samplewright``, whose value is a JSON document (field list
   in the README, "Artifact format"). Its ``content_hash`` is BLAKE3 (written ``blake3:`` and 64
   hex digits) of the canonical content: the prefix ``samplewright-content-v2``, the payload
@@ -47,6 +49,9 @@ from samplewright.core.errors import ArtifactError, IntegrityError, Samplewright
 from samplewright.core.versions import ARTIFACT_FORMAT_VERSION
 from samplewright.distributions.base import Sampler
 from samplewright.store.tables import FloatColumnError, read_float_columns, write_table
+
+# the one empty column of an artifact whose sampler has no payload (readers need a column)
+NO_PAYLOAD = "no_payload"
 
 __all__ = [
     "FORMAT_VERSION",
@@ -172,6 +177,8 @@ def write_sampler(
     except (TypeError, ValueError) as exc:
         raise ArtifactError(f"{path}: the sampler's metadata cannot be stored ({exc})") from None
     columns = {k: _le_float64(v) for k, v in payload.items()}
+    if not columns:
+        columns = {NO_PAYLOAD: np.empty(0, dtype="<f8")}
     table = pa.Table.from_arrays([_arrow(v) for v in columns.values()], names=list(columns))
     write_table(path, table, {METADATA_KEY: text}, compression="zstd")
     return meta
@@ -212,6 +219,8 @@ def _read(path: Path) -> tuple[dict[str, np.ndarray], dict[str, Any]]:
     except Exception as exc:
         reason = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
         raise ArtifactError(f"{path}: not a readable Parquet file ({reason})") from None
+    if list(payload) == [NO_PAYLOAD] and not len(payload[NO_PAYLOAD]):
+        payload = {}
     return payload, found[0]
 
 
