@@ -20,7 +20,9 @@ Methods
   where it extrapolates by the family's shape; a fit whose mass above the smallest truncation
   point the data cannot pin down is refused
   (:mod:`~samplewright.fitting.incomplete_drift`). Options as for complete data: ``loc`` (a
-  number; default 0; ``"free"`` is not offered here) for positive families, ``xm`` for pareto.
+  number; default 0; ``"free"`` is not offered here) for positive families, ``xm`` for pareto,
+  and any parameter by its own name (``shape=2.0``), held at that number while the others
+  maximise the incomplete-data likelihood (not counted in AIC/BIC; :func:`incomplete_fixed`).
   ``lomax`` is not offered: it is ``generalized_pareto`` with ``xi = 1 / alpha``.
 * ``"kaplan_meier"``: exact and right-censored rows with entry times (truncation), a
   :class:`~samplewright.distributions.kaplan_meier.KaplanMeierSampler`.
@@ -46,18 +48,21 @@ from typing import Any, Literal, get_args
 import numpy as np
 
 from samplewright.core.checks import CheckedSample, check_sample
-from samplewright.core.errors import FitError, MethodError
+from samplewright.core.errors import FitError, MethodError, SamplewrightError
 from samplewright.distributions.base import Sampler
 from samplewright.distributions.families import FAMILIES
 from samplewright.distributions.parametric import ParametricSampler
 from samplewright.fitting.catalog import CATALOG, CRITERIA, Criterion
 from samplewright.fitting.incomplete import FAMILY_NAMES, IncompleteFitResult, fit_incomplete
+from samplewright.fitting.incomplete_checks import XI_RANGE, spec_for
 from samplewright.fitting.incomplete_sample import (
     IncompleteSample,
     incomplete_from_flags,
     incomplete_sample,
 )
 from samplewright.fitting.incomplete_samplers import product_limit_sampler, turnbull_sampler
+from samplewright.fitting.mle_spread import check_collapse, explain_failure
+from samplewright.fitting.mle_sums import Obs
 
 __all__ = [
     "INCOMPLETE_FAMILIES",
@@ -80,7 +85,6 @@ INCOMPLETE_FAMILIES: tuple[str, ...] = tuple(
     n for n in FAMILY_NAMES if n in FAMILIES and not FAMILIES[n].discrete
 )
 INCOMPLETE_METHODS: tuple[str, ...] = INCOMPLETE_FAMILIES + NONPARAMETRIC_INCOMPLETE
-_FAMILY_OPTIONS = ("loc", "xm")  # options a family fit turns into fixed parameters
 _NONPARAMETRIC_OPTIONS = frozenset({"tail"})
 # default candidates (the same split as ``auto`` on complete data)
 _POSITIVE = ("lognormal", "gamma", "weibull", "exponential", "inverse_gaussian")
@@ -120,18 +124,31 @@ def _check_options(method: str, options: Mapping[str, Any]) -> None:
 
 
 def incomplete_fixed(method: str, options: Mapping[str, Any]) -> dict[str, float]:
-    """The fixed parameters that a family's options ask for (``loc``, ``xm``), checked.
+    """The fixed parameters that a family's options ask for, checked.
+
+    Every option of a family fit names a parameter: the settings ``loc`` and ``xm`` and any
+    estimated parameter (``shape=2.0``), held at that number while the others are estimated.
+    An option that names no parameter of the family is refused, never ignored. Nonparametric
+    methods fix nothing.
 
     >>> incomplete_fixed("gamma", {"loc": 100})
     {'loc': 100.0}
+    >>> incomplete_fixed("weibull", {"shape": 1.5})
+    {'shape': 1.5}
     """
     method = _method(method)
     _check_options(method, options)
+    if method in NONPARAMETRIC_INCOMPLETE:
+        return {}
+    spec = spec_for(method)
+    params = spec.settings + spec.estimated
     fixed: dict[str, float] = {}
-    for k in _FAMILY_OPTIONS:
-        if k not in options:
-            continue
-        v = options[k]
+    for k, v in options.items():
+        if k not in params:
+            raise MethodError(
+                f"option {k!r} of {method} is not offered for truncated or interval-censored "
+                f"data (options that fix a parameter: {', '.join(params)})"
+            )
         if v == "free":
             raise MethodError(
                 f"option {k!r} of {method}: 'free' is not offered for truncated or "
@@ -139,7 +156,17 @@ def incomplete_fixed(method: str, options: Mapping[str, Any]) -> dict[str, float
             )
         if isinstance(v, bool) or not isinstance(v, int | float | np.integer | np.floating):
             raise MethodError(f"option {k!r} of {method}: expected a number, found {v!r}")
-        fixed[k] = float(v)
+        x = float(v)
+        if not np.isfinite(x):
+            raise MethodError(f"option {k!r} of {method}: expected a finite number, found {x!r}")
+        if (spec.kinds.get(k) == "log" or k == "xm") and not x > 0:
+            raise MethodError(f"option {k!r} of {method}: expected a number > 0, found {x!r}")
+        if spec.kinds.get(k) == "xi" and not XI_RANGE[0] <= x <= XI_RANGE[1]:
+            raise MethodError(
+                f"option {k!r} of {method}: expected a number in [{XI_RANGE[0]:g}, "
+                f"{XI_RANGE[1]:g}], found {x!r}"
+            )
+        fixed[k] = x
     return fixed
 
 
@@ -348,12 +375,31 @@ def fit_sample(sample: CheckedSample, method: str, **options: Any) -> Sampler:
 
 
 def _fit_family(sample: IncompleteSample, method: str, fixed: Mapping[str, float]) -> Any:
-    r = fit_incomplete(sample, method, fixed=fixed)
+    """The family's fit, refused on data with (almost) no spread as complete data are
+    (:mod:`~samplewright.fitting.mle_spread`, on the rows' finite ends).
+
+    Floating-point warnings are silenced (the answer is checked) and a numerical solver's
+    ValueError (NaN on extreme parameters) becomes a FitError naming the method.
+    """
+    lo, hi = sample.lower, sample.upper
+    points = np.concatenate([lo, hi[lo != hi]])  # an exact row counts once
+    ends = Obs(points[np.isfinite(points)])
+    try:
+        with np.errstate(all="ignore"):
+            r = fit_incomplete(sample, method, fixed=fixed)
+    except SamplewrightError:
+        raise
+    except ValueError as exc:
+        err = FitError(f"{method}: a numerical solver failed: {exc}")
+        raise explain_failure(method, ends, err) or err from None
     if not r.converged:
-        raise FitError(
+        err = FitError(
             f"{method}: the optimiser did not converge within its budget ({r.n_iter} "
             "iterations); the best point found is not a maximum"
         )
+        raise explain_failure(method, ends, err) or err
+    if r.n_params and ends.n:
+        check_collapse(method, ends, r.loglik, r.n_obs)
     return r
 
 

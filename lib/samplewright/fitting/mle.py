@@ -28,14 +28,16 @@ A value outside what the family (with its fixed parameters) can produce, such as
 rayleigh, a value below ``loc``, a negative or fractional count, is an input error: a
 MethodError naming the value and its row (counted from 1 among rows of positive weight).
 
-Every fit is checked: the log-likelihood must be finite and the fitted support (scipy's) must
+Every fit is checked: the log-likelihood must be finite, the fitted support (scipy's) must
 contain every uncensored value (scipy's generic optimiser can silently return a location above
-the smallest value). Every fit ends in bounded time: closed forms where they exist
-(:mod:`.mle_fits`, their log-likelihood from the same sums), one-dimensional solvers with step
-caps, and a numerical optimiser with a cap on evaluations (:mod:`.optimise`) for the rest
-(:mod:`.mle_numeric`, :mod:`.mle_bounded`, :mod:`.mle_student_t`). Location-scale families are
-fitted to standardised values, so values of any magnitude work; values whose spread overflows
-float64 are refused with a MethodError naming them.
+the smallest value), and a continuous fit must not shrink onto a point: data with (almost) no
+spread are refused with a MethodError that says so (:mod:`.mle_spread`). Every fit ends in
+bounded time: closed forms where they exist (:mod:`.mle_fits`, their log-likelihood from the
+same sums), one-dimensional solvers with step caps, and a numerical optimiser with a cap on
+evaluations (:mod:`.optimise`) for the rest (:mod:`.mle_numeric`, :mod:`.mle_bounded`,
+:mod:`.mle_student_t`). Location-scale families are fitted to standardised values, so values of
+any magnitude work; values whose spread overflows float64 are refused with a MethodError naming
+them.
 """
 
 from __future__ import annotations
@@ -74,6 +76,7 @@ from samplewright.fitting.mle_numeric import (
     fit_logistic,
 )
 from samplewright.fitting.mle_options import fixed_options
+from samplewright.fitting.mle_spread import check_collapse, explain_failure
 from samplewright.fitting.mle_student_t import NU_MAX, fit_student_t
 from samplewright.fitting.mle_sums import Obs, dot, refuse_outside
 from samplewright.fitting.mle_warnings import fit_warnings
@@ -417,10 +420,16 @@ def fit_checked(
     ll: float | None = None
     # floating-point warnings are silenced: every result is checked below (finite, in support)
     with np.errstate(all="ignore"):
-        if c is None:
-            params, ll = _fit_uncensored(family, obs, o)
-        else:
-            params = _fit_censored(family, obs, c, o)
+        try:
+            if c is None:
+                params, ll = _fit_uncensored(family, obs, o)
+            else:
+                params = _fit_censored(family, obs, c, o)
+        except FitError as err:  # on data with (almost) no spread, say so
+            better = None if family.discrete else explain_failure(name, obs, err)
+            if better is None:
+                raise
+            raise better from None
         params = {k: float(params[k]) for k in family.param_names}
         if ll is None:
             ll = loglik(family, params, obs.x, obs.w, c)
@@ -440,6 +449,8 @@ def fit_checked(
         raise FitError(
             f"{name}: fitted support [{lo}, {hi}] does not contain the data [{seen.lo}, {seen.hi}]"
         )
+    if n_params and not family.discrete:
+        check_collapse(name, obs, ll)  # a density narrower than the data's rounding
     return FamilyFitResult(name, params, ll, n_params, obs.total)
 
 

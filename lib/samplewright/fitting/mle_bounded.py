@@ -48,7 +48,9 @@ def fit_uniform(obs: Obs, o: Mapping[str, Any]) -> Fitted:
                 break
             hi = float(np.nextafter(hi, np.inf))
     if not lo < hi:
-        raise MethodError(f"uniform cannot be fitted: all {obs.n} values equal {lo!r}")
+        raise MethodError(
+            f"uniform cannot be fitted: all {obs.n} values equal {lo!r} (the data have no spread)"
+        )
     if not np.isfinite(hi - lo):
         raise MethodError(
             f"uniform: the values span {lo!r} to {hi!r}, a spread that overflows float64"

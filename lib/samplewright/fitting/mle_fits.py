@@ -123,7 +123,10 @@ def check_shift(obs: Obs, loc: float, name: str, strict: bool) -> None:
 def need_spread(obs: Obs, name: str) -> None:
     """Refuse values that are all equal, or whose spread overflows float64."""
     if obs.lo == obs.hi:
-        raise MethodError(f"{name} cannot be fitted: all {obs.n} values equal {obs.lo!r}")
+        raise MethodError(
+            f"{name} cannot be fitted: all {obs.n} values equal {obs.lo!r} "
+            "(the data have no spread)"
+        )
     if not np.isfinite(obs.hi - obs.lo):
         raise MethodError(
             f"{name}: the values span {obs.lo!r} to {obs.hi!r}, a spread that overflows float64 "
@@ -198,7 +201,9 @@ def _fit0_lognormal(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
     sigma = fixed(o, "sigma")
     sigma = float(np.sqrt(d2 / big_w)) if sigma is None else sigma
     if not sigma > 0:
-        raise MethodError("lognormal cannot be fitted: log(x - loc) does not vary")
+        raise MethodError(
+            "lognormal cannot be fitted: log(x - loc) does not vary (the data have no spread)"
+        )
     ll = -big_w * (m + np.log(sigma) + 0.5 * _LOG_2PI) - d2 / (2.0 * sigma * sigma)
     need_finite("lognormal", obs, m, ll)
     return {"mu": mu, "sigma": sigma}, float(ll)
@@ -297,7 +302,7 @@ def _fit0_pareto(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted:
     alpha = fixed(o, "alpha")
     if alpha is None:
         if not s > 0:
-            raise MethodError("pareto cannot be fitted: every value equals xm")
+            raise MethodError("pareto cannot be fitted: every value equals xm (no spread above it)")
         alpha = big_w / s
     ll = big_w * np.log(alpha) - alpha * s - (s + big_w * np.log(xm))
     need_finite("pareto", obs, alpha, ll)
@@ -319,7 +324,9 @@ def _fit0_inverse_gaussian(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitted
     lam = fixed(o, "lambda")
     if lam is None:
         if not d > 0:
-            raise MethodError("inverse_gaussian cannot be fitted: every value equals mu")
+            raise MethodError(
+                "inverse_gaussian cannot be fitted: every value equals mu (the data have no spread)"
+            )
         lam = big_w * mu * mu / d
     ll = 0.5 * big_w * (np.log(lam) - _LOG_2PI) - 1.5 * sl - lam * d / (2.0 * mu * mu)
     need_finite("inverse_gaussian", obs, lam, ll)

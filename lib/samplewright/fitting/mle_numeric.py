@@ -171,6 +171,8 @@ def fit0_generalized_pareto(obs: Obs, loc: float, o: Mapping[str, Any]) -> Fitte
 
 # --- generalized extreme value ----------------------------------------------------------------
 
+_CORNER_TOL = 1e-9  # mean log-likelihood within which the xi = -1 edge is taken as the optimum
+
 
 def _gev_logpdf(x: np.ndarray, mu: float, sigma: float, xi: float) -> np.ndarray:
     if xi < -1.0:  # the likelihood is unbounded below xi = -1 (Smith, 1985)
@@ -179,6 +181,8 @@ def _gev_logpdf(x: np.ndarray, mu: float, sigma: float, xi: float) -> np.ndarray
     if abs(xi) < 1e-9:
         return -np.log(sigma) - z - np.exp(-z)
     t = 1.0 + xi * z
+    if xi == -1.0:  # density exp(-t) / sigma, positive at the upper end t = 0 too
+        return np.where(t >= 0, -np.log(sigma) - t, -np.inf)
     lt = np.log(np.where(t > 0, t, 1.0))
     out = -np.log(sigma) - (1.0 + 1.0 / xi) * lt - np.exp(-lt / xi)
     return np.where(t > 0, out, -np.inf)
@@ -219,11 +223,45 @@ def fit_gev(obs: Obs, o: Mapping[str, Any]) -> Fitted:
         if k not in given
     }
     p = _fit_free(ll, starts, kinds, "gev")
-    return {
+    if not given:
+        p = _gev_corner(z, w, total, p, ll)
+    out = {
         "mu": c + h * p["mu"] if mu_f is None else mu_f,
         "sigma": h * p["sigma"] if sigma_f is None else sigma_f,
         "xi": p["xi"],
-    }, None
+    }
+    if out["xi"] == -1.0 and mu_f is None:  # keep max(x) inside the support after rounding
+        out["mu"] = _below_top(out["mu"], out["sigma"], obs.hi)
+    return out, None
+
+
+def _below_top(mu: float, sigma: float, top: float) -> float:
+    """``mu`` raised by a few ulps until ``(top - mu) / sigma <= 1`` holds in floating point
+    (with xi = -1 the support ends at ``mu + sigma``, and ``top`` must stay inside)."""
+    for _ in range(64):
+        if (top - mu) / sigma <= 1.0:
+            break
+        mu = float(np.nextafter(mu, np.inf))
+    return mu
+
+
+def _gev_corner(
+    z: np.ndarray, w: np.ndarray, total: float, p: Params, ll: Callable[[Params], float]
+) -> Params:
+    """The better of ``p`` and the best fit with xi = -1, which an optimiser can only approach.
+
+    With xi = -1 the density is ``exp(-(U - x) / sigma) / sigma`` below the upper end ``U``, so
+    the best such fit has ``U = max(z)`` and ``sigma`` the mean distance to it; it wins when
+    many values tie at the maximum (the likelihood's largest value is then on that edge), or
+    when ``p`` is within :data:`_CORNER_TOL` of it (mean log-likelihood).
+    """
+    top = float(z.max())
+    s_top = float(dot(w, top - z)) / total
+    if not s_top > 0:
+        return p
+    corner = {"mu": _below_top(top - s_top, s_top, top), "sigma": s_top, "xi": -1.0}
+    with np.errstate(all="ignore"):  # an optimiser next to the edge is within rounding of it
+        return corner if ll(corner) >= ll(p) - _CORNER_TOL else p
 
 
 # --- beta on [lower, upper] -------------------------------------------------------------------

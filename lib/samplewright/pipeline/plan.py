@@ -21,6 +21,14 @@ Keys (:data:`KEY_LEN` hex characters of a sha256 of canonical JSON):
 * report key     = H("report", select key, intervals key, replicates key, units,
   drift threshold, RESULTS_VERSION)
 
+A candidate whose method draws random numbers while fitting (the catalog gives it option
+``seed``: ``auto``'s goodness-of-fit bootstrap, ``mixture``'s EM starts) and whose config sets
+no ``seed`` gets one from the root seed and stable names (:func:`derived_seed` of the dataset,
+``"fit"`` and the label; a joint input's marginal: the joint name, ``"marginal"`` and the
+column). It enters the candidate's options, so the fit key changes with the root seed, two
+candidates never share a stream, and the fit job receives it as ``--option seed=N``; a seed the
+config sets wins.
+
 The *data key* is the data fingerprint, or, with one truncation point for every row, a hash of
 the fingerprint and that point (its snapshot is the plain column's). Datasets without a data file
 (knots, quantiles, three_points) are fingerprinted from their points: changing a point changes
@@ -60,7 +68,16 @@ from samplewright.pipeline.config_joint import marginal_specs
 from samplewright.pipeline.plan_args import PlanArgs
 from samplewright.store.layout import StoreLayout
 
-__all__ = ["KEY_LEN", "KEY_PATTERN", "RESULTS_VERSION", "Plan", "content_key", "snapshot_mem_mb"]
+__all__ = [
+    "KEY_LEN",
+    "KEY_PATTERN",
+    "RESULTS_VERSION",
+    "Plan",
+    "content_key",
+    "derived_seed",
+    "seeded",
+    "snapshot_mem_mb",
+]
 
 _FORMAT_OPTIONS = ("separator", "decimal", "missing_markers", "encoding")
 
@@ -82,6 +99,32 @@ def content_key(*parts: Any) -> str:
     '291bc14f528cdf82dfb2'
     """
     return hashlib.sha256(canonical_json(list(parts)).encode()).hexdigest()[:KEY_LEN]
+
+
+def derived_seed(root_seed: int, *names: str) -> int:
+    """A seed (an int below 2**53, so JSON keeps it exactly) from the root seed and stable names.
+
+    The first 8 bytes of the sha256 of the canonical JSON of ``["seed", root_seed, *names]``,
+    shifted right by 11 bits: the same on every machine and run, different for every name.
+
+    >>> derived_seed(0, "repairs", "fit", "auto") == derived_seed(0, "repairs", "fit", "auto")
+    True
+    >>> derived_seed(0, "repairs", "fit", "auto") != derived_seed(1, "repairs", "fit", "auto")
+    True
+    """
+    text = canonical_json(["seed", int(root_seed), *names])
+    return int.from_bytes(hashlib.sha256(text.encode()).digest()[:8], "little") >> 11
+
+
+def seeded(spec: MethodSpec, root_seed: int, *names: str) -> MethodSpec:
+    """``spec`` with option ``seed`` derived from the root seed and ``names`` when its method
+    takes a seed (catalog option ``seed``) and the config sets none; else ``spec`` itself."""
+    from samplewright.fitting.catalog import METHOD_OPTIONS
+
+    if "seed" not in METHOD_OPTIONS.get(spec.method, frozenset()) or "seed" in spec.options:
+        return spec
+    options = {**spec.options, "seed": derived_seed(root_seed, *names)}
+    return MethodSpec(spec.label, spec.method, options)
 
 
 def snapshot_mem_mb(path: str, input_mb: float) -> int:
@@ -130,8 +173,14 @@ class Plan(PlanArgs):
             n: table_roles(ds) if self.kinds[n] == "data" else None
             for n, ds in self.datasets.items()
         }
-        self.specs = {n: method_specs(n, ds) for n, ds in self.datasets.items()}
-        self.joint_specs = {n: marginal_specs(n, e) for n, e in self.joints.items()}
+        self.specs = {
+            n: [seeded(s, self.root_seed, n, "fit", s.label) for s in method_specs(n, ds)]
+            for n, ds in self.datasets.items()
+        }
+        self.joint_specs = {
+            n: [(c, seeded(s, self.root_seed, n, "marginal", c)) for c, s in marginal_specs(n, e)]
+            for n, e in self.joints.items()
+        }
         self.reports_enabled = False
         self._fps: dict[str, str] = {}
         self._joint_fps: dict[str, str] = {}

@@ -3,7 +3,8 @@
 ``fit`` reads one value column (with weights and right-censoring flags), or several columns by
 role for incomplete data: a truncation column (``--truncation COLUMN``; a number applies to every
 row) and interval rows (``--lower``/``--upper`` instead of ``--column``; grouped counts as
-``--weights``), read by :func:`samplewright.pipeline.table_data.read_roles`.
+``--weights``), read by :func:`samplewright.pipeline.table_data.read_roles`. ``--seed N`` seeds a
+method that draws random numbers while fitting (option ``seed`` of ``auto`` and ``mixture``).
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from samplewright.pipeline.cli.common import (
     add_data_args,
     check_expected,
     check_outputs,
+    check_seed,
     parse_option,
     reading,
     table_reading,
@@ -27,7 +29,14 @@ from samplewright.pipeline.cli.method_help import (
     print_recorded_warnings,
 )
 
-__all__ = ["add_commands", "one_line", "roles_from_args", "run_fit", "run_knots"]
+__all__ = [
+    "add_commands",
+    "one_line",
+    "options_with_seed",
+    "roles_from_args",
+    "run_fit",
+    "run_knots",
+]
 
 
 def one_line(sampler: Any) -> str:
@@ -51,6 +60,29 @@ def _number(text: str | None) -> float | None:
         return float(text)
     except ValueError:
         return None
+
+
+def options_with_seed(method: str, options: dict[str, Any], seed: int | None) -> dict[str, Any]:
+    """``options`` with ``seed`` from ``--seed`` when the method takes one (catalog option
+    ``seed``); a method without randomness does not depend on it and takes it unchanged.
+
+    >>> options_with_seed("auto", {"n_resamples": 19}, 7)
+    {'n_resamples': 19, 'seed': 7}
+    >>> options_with_seed("gamma", {}, 7)
+    {}
+    """
+    if seed is None:
+        return options
+    check_seed(seed)
+    from samplewright.fitting.catalog import METHOD_OPTIONS
+
+    if "seed" not in METHOD_OPTIONS.get(method, frozenset()):
+        return options
+    if "seed" in options and options["seed"] != seed:
+        raise MethodError(
+            f"--seed: {seed} disagrees with --option seed={options['seed']!r}; give one of them"
+        )
+    return {**options, "seed": seed}
 
 
 def roles_from_args(args: argparse.Namespace) -> dict[str, str] | None:
@@ -149,6 +181,7 @@ def run_fit(args: argparse.Namespace) -> int:
 
     options = dict(parse_option(o) for o in args.option or [])
     check_method_name(args.method, options)  # the nearest name for a typo
+    options = options_with_seed(args.method, options, args.seed)
     check_outputs({"--out": args.out}, [args.data])
     roles = roles_from_args(args)
     if roles is not None:
@@ -261,6 +294,14 @@ def add_commands(sub: Any) -> None:
         metavar="NUM|COLUMN",
         help="lower truncation: one number for every row, or a column of per-row points "
         "(deductibles, delayed entry; -inf = none)",
+    )
+    p.add_argument(
+        "--seed",
+        type=int,
+        metavar="N",
+        help="seed (an int >= 0) of a method that draws random numbers while fitting: auto's "
+        "bootstrap, mixture's EM starts (it becomes their option seed); other methods do not "
+        "depend on it",
     )
     p.add_argument("--lower", metavar="COLUMN", help="interval rows: column of lower ends")
     p.add_argument(

@@ -19,6 +19,7 @@ from samplewright.pipeline.cli.common import check_outputs
 
 __all__ = [
     "add_commands",
+    "check_same_data",
     "run_check",
     "run_report",
     "run_select",
@@ -33,14 +34,21 @@ def select_artifacts(
     """Select among candidate artifacts and write the winner to ``out``; return its method.
 
     The winner is written again under ``key`` with the ranking in ``diagnostics.selection``
-    and its provenance (less time and versions) plus ``selected_from``.
+    and its provenance (less time and versions) plus ``selected_from``. Candidates must have
+    been fitted to the same data (the same recorded fingerprint and truncation point; see
+    :func:`check_same_data`), and a likelihood rule (``aic``, ``bic``) must not compare a count
+    model with a density
+    (:func:`~samplewright.check.comparable.check_comparable_fitted`): MethodError otherwise.
     """
+    from samplewright.check.comparable import check_comparable_fitted
     from samplewright.check.selection import rank_loaded, selection_record
     from samplewright.store.artifacts import load_sampler, write_sampler
 
     if not candidates:
         raise MethodError("select: at least one candidate artifact is needed")
     loaded = [load_sampler(c) for c in candidates]
+    check_same_data(candidates, [s.metadata for s in loaded])
+    check_comparable_fitted([(str(c), s) for c, s in zip(candidates, loaded, strict=True)], by)
     ranking = rank_loaded(loaded, by)
     best = loaded[ranking[0]]
     metas = [s.metadata for s in loaded]
@@ -63,6 +71,34 @@ def select_artifacts(
         provenance=provenance,
     )
     return str(meta["sampler"]["method"])
+
+
+def _data_of(meta: dict[str, Any]) -> tuple[Any, Any]:
+    """What identifies the data an artifact was fitted to: fingerprint and truncation point."""
+    return meta.get("fingerprint"), (meta.get("provenance") or {}).get("truncation")
+
+
+def _describe(data: tuple[Any, Any]) -> str:
+    fp, t = data
+    text = "no recorded fingerprint" if fp is None else f"fingerprint {str(fp)[:16]}"
+    return text if t is None else f"{text}, truncation {t!r}"
+
+
+def check_same_data(candidates: Sequence[str | Path], metadata: Sequence[dict[str, Any]]) -> None:
+    """Refuse candidates fitted to other data than the first one (MethodError naming both).
+
+    Two artifacts share their data when they record the same fingerprint (None counts as a
+    value of its own: an artifact whose data are unknown is not compared with one whose data
+    are known) and the same truncation point.
+    """
+    first = _data_of(metadata[0])
+    for path, meta in zip(candidates[1:], metadata[1:], strict=True):
+        other = _data_of(meta)
+        if other != first:
+            raise MethodError(
+                f"select: {path} was fitted to other data than {candidates[0]} "
+                f"({_describe(other)} against {_describe(first)}); refit it on the same data"
+            )
 
 
 def write_check(
