@@ -348,7 +348,7 @@ def test_plan_paths_are_the_layouts(data_dir: Path) -> None:
     )
     key = plan.select_key("hours")
     assert plan.selected_path("hours") == layout.selected("hours", key)
-    assert plan.check_path("hours") == layout.check("hours", key)
+    assert plan.check_path("hours") == layout.check("hours", plan.check_key("hours"))
     assert plan.draws_path("hours") == layout.draws("hours", plan.draws_key("hours"))
     assert layout.check_markdown("hours", key) == layout.check("hours", key)[:-4] + "md"
 
@@ -442,3 +442,17 @@ def test_declared_snapshot_memory_covers_the_measured_peak(tmp_path: Path) -> No
     peak_mb = int(proc.stderr.strip().splitlines()[-1]) / 1024
     declared = snapshot_mem_mb(str(data), data.stat().st_size / 2**20)
     assert peak_mb < declared
+
+
+def test_the_check_reruns_when_its_seed_or_drift_threshold_changes(data_dir: Path) -> None:
+    """The check's bootstrap draws from the root seed and its drift flag uses the threshold, so
+    both enter its key (and the report's); the selection itself does not move."""
+    from samplewright.pipeline.plan import Plan
+
+    base = Plan(_cfg())
+    reseeded = Plan({**_cfg(), "root_seed": 7})
+    threshold = Plan({**_cfg(), "report": {"drift_threshold": 0.2}})
+    assert base.select_key("hours") == reseeded.select_key("hours")
+    paths = {p.check_path("hours") for p in (base, reseeded, threshold)}
+    reports = {p.report_path("hours") for p in (base, reseeded, threshold)}
+    assert len(paths) == 3 and len(reports) == 3

@@ -18,7 +18,8 @@ Keys (:data:`KEY_LEN` hex characters of a sha256 of canonical JSON):
 * joint key      = H("joint", table fingerprint, canonical columns + coupling, root seed,
   RESULTS_VERSION); joint draws key = H("joint_draws", joint key, n, root seed, sequence,
   RESULTS_VERSION)
-* report key     = H("report", select key, intervals key, replicates key, units,
+* check key      = H("check", select key, root seed, drift threshold, RESULTS_VERSION)
+* report key     = H("report", select key, check key, intervals key, replicates key, units,
   drift threshold, RESULTS_VERSION)
 
 A candidate whose method draws random numbers while fitting (the catalog gives it option
@@ -431,6 +432,7 @@ class Plan(PlanArgs):
         return content_key(
             "report",
             self.select_key(name),
+            self.check_key(name),
             self.intervals_key(name) if "intervals" in ds else None,
             self.replicates_key(name) if "replicates" in ds else None,
             ds.get("units"),
@@ -478,8 +480,19 @@ class Plan(PlanArgs):
     def draws_path(self, name: str) -> str:
         return self.layout.draws(name, self.draws_key(name))
 
+    def check_key(self, name: str) -> str:
+        """The check's key: its bootstrap draws from the root seed, its drift flag from the
+        threshold, so either changing reruns it."""
+        return content_key(
+            "check",
+            self.select_key(name),
+            self.root_seed,
+            self.config["report"]["drift_threshold"],
+            self.results_version,
+        )
+
     def check_path(self, name: str) -> str:
-        return self.layout.check(name, self.select_key(name))
+        return self.layout.check(name, self.check_key(name))
 
     def fingerprint_record(self, name: str) -> str:
         return self.layout.produced(name)
