@@ -640,3 +640,19 @@ def test_bit_flips_are_detected_or_harmless(tmp_path: Path, name: str) -> None:
             silent += 1
     assert silent == 0
     assert detected + harmless == len(flips) and detected > 0
+
+
+def test_what_a_fit_recorded_is_written_without_being_passed(tmp_path: Path) -> None:
+    """write_sampler keeps the sampler's own diagnostics (an expert input's elicited points)
+    when the caller passes none, and an explicit ``diagnostics=`` still wins."""
+    import samplewright as sw
+
+    # source: invented three elicited quantiles (demo-style), read back through load_sampler
+    s = sw.from_quantiles([0.1, 0.5, 0.9], [40.0, 55.0, 90.0], family="lognormal")
+    assert s.diagnostics
+    write_sampler(s, tmp_path / "a.parquet")
+    assert load_sampler(tmp_path / "a.parquet").metadata["diagnostics"] == json.loads(
+        json.dumps(s.diagnostics)
+    )
+    write_sampler(s, tmp_path / "b.parquet", diagnostics={})
+    assert load_sampler(tmp_path / "b.parquet").metadata["diagnostics"] == {}

@@ -76,13 +76,17 @@ def rank_loaded(samplers: Sequence[Any], by: str) -> list[int]:
 
 
 def selection_record(
-    metadata: Sequence[Mapping[str, Any]], ranking: Sequence[int], by: str
+    metadata: Sequence[Mapping[str, Any]],
+    ranking: Sequence[int],
+    by: str,
+    labels: Sequence[str] | None = None,
 ) -> dict[str, Any]:
     """The ``diagnostics.selection`` block: the rule, the chosen method and the ranking (the
     rule's reason in words is :func:`selection_reason`, not stored).
 
     ``metadata`` holds each candidate's artifact metadata in candidate order and ``ranking``
-    their indices from best to worst (as :func:`rank_loaded` gives them).
+    their indices from best to worst (as :func:`rank_loaded` gives them); ``labels``, when
+    given, names each candidate (two candidates of one method with different options).
 
     >>> metas = [{"sampler": {"method": m, "aic": a}, "key": k, "content_hash": "sha256:" + k}
     ...          for m, a, k in [("gamma", 10.5, "k1"), ("normal", 9.0, "k2")]]
@@ -97,6 +101,7 @@ def selection_record(
             {
                 "rank": rank,
                 "method": m["sampler"]["method"],
+                **({"label": labels[i]} if labels is not None else {}),
                 "key": m.get("key"),
                 "content_hash": m["content_hash"],
                 "aic": m["sampler"].get("aic"),

@@ -121,7 +121,8 @@ def _selection(sel: Mapping[str, Any]) -> list[str]:
         crit = "  ".join(
             f"{k} {format_value(row[k])}" for k in ("aic", "bic") if row.get(k) is not None
         )
-        lines.append(f"    {row.get('rank')}. {str(row.get('method')):<18} {crit}".rstrip())
+        name = str(row.get("label") or row.get("method"))
+        lines.append(f"    {row.get('rank')}. {name:<18} {crit}".rstrip())
     return lines
 
 

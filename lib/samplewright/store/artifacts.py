@@ -163,7 +163,10 @@ def write_sampler(
         "fingerprint": fingerprint,
         "key": key,
         "data": dict(data or {}),
-        "diagnostics": dict(diagnostics or {}),
+        # what the fit recorded travels with the sampler unless the caller says otherwise
+        "diagnostics": dict(
+            (getattr(sampler, "diagnostics", None) or {}) if diagnostics is None else diagnostics
+        ),
     }
     try:
         meta["content_hash"] = content_hash(payload, meta)

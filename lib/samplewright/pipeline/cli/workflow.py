@@ -42,6 +42,7 @@ def select_artifacts(
     """
     from samplewright.check.comparable import check_comparable_fitted
     from samplewright.check.selection import rank_loaded, selection_record
+    from samplewright.pipeline.cli.check_files import candidate_labels
     from samplewright.store.artifacts import load_sampler, write_sampler
 
     if not candidates:
@@ -54,7 +55,8 @@ def select_artifacts(
     metas = [s.metadata for s in loaded]
     meta = metas[ranking[0]]
     diagnostics = dict(meta.get("diagnostics") or {})
-    diagnostics["selection"] = selection_record(metas, ranking, by)
+    labels = candidate_labels(candidates, loaded)
+    diagnostics["selection"] = selection_record(metas, ranking, by, labels)
     provenance = {
         k: v
         for k, v in (meta.get("provenance") or {}).items()
