@@ -1,4 +1,4 @@
-# samplewright rules: snapshot, fit, select, draw and check samplers, all content-addressed.
+# samplewright rules: snapshot, fit, select, draw, resample and check samplers, all content-addressed.
 #
 # Use from your Snakefile, either as a module:
 #     import samplewright
@@ -18,7 +18,7 @@
 #     draw.smk     sw_draw
 #     resample.smk sw_intervals (bootstrap intervals), sw_replicates (parameter replicates)
 #     joint.smk    sw_fit_joint, sw_joint_draw
-#     check.smk    sw_check
+#     check.smk    sw_check (check summary), sw_report (report page, registered with report())
 # Store paths come from the plan's layout (samplewright.store.layout), never spelled here.
 #
 # Only the intake rules name the raw data file; every rule below reads the content-addressed

@@ -1,7 +1,7 @@
 """The allowed values of the pipeline's string options, importable without numpy or scipy.
 
 Each tuple mirrors a library tuple that lives in a module importing numpy or scipy (named beside
-it); ``tests/unit/test_config_choices.py`` checks that they are equal. The configuration schema
+it); ``tests/unit/test_config_new.py`` checks that they are equal. The configuration schema
 (:func:`samplewright.pipeline.config.load_schema` fills its enums from here) and the command
 line's ``choices=`` read these, so ``samplewright --help`` and every Snakemake parse stay light.
 """
