@@ -135,13 +135,13 @@ def test_example_knots_dataset_keeps_its_recorded_paths(
     # source: /work/helpers/hashes_before.json (paths of the example run before the move:
     # b1bd52de..., 38d51786..., 915a439a...); changed on purpose by the BLAKE3 fingerprint (issue
     # 10, SNAPSHOT_FORMAT_VERSION 2 enters the keys) and by the data keys of point datasets
-    # (pipeline/plan.py, same stage of work): recomputed after both changes and pinned.
+    # (pipeline/plan.py, same stage of work), then by RESULTS_VERSION 3: recomputed and pinned.
     assert plan.fit_path("spare_part_wait", "knots") == (
-        "store/samplers/spare_part_wait/knots/2c7c5587a4911557b173.parquet"
+        "store/samplers/spare_part_wait/knots/806acd77c2be4df73ea7.parquet"
     )
     assert plan.selected_path("spare_part_wait") == (
-        "store/selected/spare_part_wait/a6e7ac01842882a80592.parquet"
+        "store/selected/spare_part_wait/88de58374d2df6d46f0e.parquet"
     )
     assert plan.draws_path("spare_part_wait") == (
-        "store/draws/spare_part_wait/0cfef623a5768bcc4b92.parquet"
+        "store/draws/spare_part_wait/6b2effd53607502a2d62.parquet"
     )
