@@ -38,6 +38,7 @@ _LAZY = {
     "EmpiricalPmfSampler": "distributions.empirical_pmf",
     "EmpiricalSampler": "distributions.empirical",
     "EnsembleSampler": "distributions.ensemble",
+    "SparseTailWarning": "resample.guards",
     "GoodnessOfFitResult": "check.gof",
     "JointSampler": "distributions.joint",
     "KaplanMeierSampler": "distributions.kaplan_meier",
@@ -121,6 +122,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from samplewright.intake.tables import read_table
     from samplewright.pipeline.helpers import rules_path
     from samplewright.resample.block_length import BlockLengthResult, optimal_block_length
+    from samplewright.resample.guards import SparseTailWarning
     from samplewright.resample.intervals import BootstrapIntervalResult, bootstrap_interval
     from samplewright.store.artifacts import (
         load_sampler,
@@ -173,6 +175,7 @@ __all__ = [
     "Sampler",
     "SamplewrightError",
     "SmoothedSampler",
+    "SparseTailWarning",
     "SplicedSampler",
     "bootstrap_interval",
     "candidate_spread",

@@ -11,6 +11,7 @@ from samplewright.core.errors import InputDataError, MethodError
 from samplewright.resample import acceleration as accel
 from samplewright.resample.block_length import optimal_block_length, resolve_block_length
 from samplewright.resample.intervals import bootstrap_interval, interval_from_distribution
+from samplewright.resample.schemes import make_scheme
 from samplewright.resample.statistics import parse_statistic
 
 
@@ -185,17 +186,110 @@ def test_named_mean_equals_callable_mean() -> None:
     assert b.statistic == "mean"
 
 
-def test_weighted_bootstrap_spread_uses_the_weighted_distribution() -> None:
-    """With weights the SE of the mean is the weighted sd over sqrt(n rows)."""
+def test_weighted_resamples_are_the_repeated_rows_resampled() -> None:
+    """Whole-number weights: each resample's counts give exactly the statistic of the units it
+    drew (the rows repeated by their counts), for every named statistic."""
+    # source: definition of frequency weights, a row of weight k is k rows (np.repeat), as in
+    # statsmodels' freq_weights and the README; numpy evaluates the statistic on the units
     rng = np.random.default_rng(12)
+    x = rng.lognormal(size=25)
+    w = rng.integers(1, 6, 25).astype(float)
+    sch = make_scheme(x, weights=w)
+    counts = np.concatenate(list(sch.count_batches(40, rng=3)))
+    units = np.concatenate(list(sch.index_batches(40, rng=3)))  # the same draws, as units
+    assert counts.sum(axis=1).tolist() == [int(w.sum())] * 40
+    np.testing.assert_array_equal(np.apply_along_axis(np.bincount, 1, units, None, 25), counts)
+    for name in ("mean", "std", "quantile:0.3", "quantile:0.95", "tail_mean:0.8", "exceedance:1"):
+        stat = parse_statistic(name)
+        np.testing.assert_allclose(
+            stat.weighted(x, counts), stat(x.take(units)), rtol=1e-12, atol=1e-15
+        )
+
+
+def test_weighted_bootstrap_standard_error_counts_every_unit() -> None:
+    """Frequency weights: the SE of the mean is the plug-in sd over sqrt(sum of weights), as for
+    the rows repeated, not over sqrt(number of rows)."""
+    # source: ideal bootstrap SE of a mean, plug-in sd / sqrt(n) (Efron & Tibshirani 1993,
+    # ch. 5 -- from memory); n is the number of observations, here sum(w)
+    rng = np.random.default_rng(13)
     x = rng.normal(size=400)
     w = np.where(x > 0, 3.0, 1.0)
     r = bootstrap_interval(x, "mean", weights=w, n_resamples=4000, rng=2)
+    e = np.repeat(x, w.astype(int))
+    assert r.estimate == pytest.approx(e.mean(), rel=1e-12)
+    want = e.std() / np.sqrt(e.size)
+    assert r.standard_error == pytest.approx(want, rel=0.05)  # MC error ~1/sqrt(2*4000) = 1.1%
+    assert r.standard_error < 0.8 * x.std() / np.sqrt(x.size)  # the old per-row answer is far
+
+
+def test_fractional_weights_resample_the_rounded_total() -> None:
+    """Fractional weights: resamples have round(sum(w)) units; the SE of the mean is the
+    weighted plug-in sd over sqrt(round(sum(w)))."""
+    rng = np.random.default_rng(14)
+    x = rng.gamma(2.0, size=300)
+    w = rng.uniform(0.5, 2.5, 300)
+    r = bootstrap_interval(x, "mean", weights=w, n_resamples=4000, rng=3)
     p = w / w.sum()
     mu = p @ x
-    assert r.estimate == pytest.approx(mu)
-    want = np.sqrt(p @ (x - mu) ** 2 / x.size)
-    assert r.standard_error == pytest.approx(want, rel=0.05)  # MC error ~1/sqrt(2*4000) = 1.1%
+    assert r.estimate == pytest.approx(mu, rel=1e-12)
+    # source: multinomial resampling of m units: Var = sigma_w^2 / m (common practice)
+    want = np.sqrt(p @ (x - mu) ** 2 / round(w.sum()))
+    assert r.standard_error == pytest.approx(want, rel=0.05)
+
+
+def test_weights_of_one_and_zero_rows_change_nothing() -> None:
+    """All-one weights are no weights; rows of weight 0 are dropped like absent rows."""
+    # source: samplewright.core.checks' rule (weight 0 rows dropped), common practice
+    x = np.random.default_rng(15).normal(size=60)
+    plain = bootstrap_interval(x, "quantile:0.5", n_resamples=300, rng=4)
+    ones = bootstrap_interval(x, "quantile:0.5", weights=np.ones(60), n_resamples=300, rng=4)
+    np.testing.assert_array_equal(plain.bootstrap_distribution, ones.bootstrap_distribution)
+    w = np.r_[np.zeros(10), np.full(50, 2.0)]
+    zero = bootstrap_interval(x, "mean", weights=w, n_resamples=300, rng=5)
+    dropped = bootstrap_interval(x[10:], "mean", weights=w[10:], n_resamples=300, rng=5)
+    np.testing.assert_array_equal(zero.bootstrap_distribution, dropped.bootstrap_distribution)
+
+
+def test_callable_with_weights_sees_the_same_resamples_as_the_named_statistic() -> None:
+    """A callable with whole-number weights gets the units of the same draws: np.mean equals
+    'mean' resample by resample, and BCa uses the jackknife of the repeated rows."""
+    # source: Efron's jackknife acceleration on the repeated rows (brute_jackknife_a above)
+    rng = np.random.default_rng(16)
+    x = rng.exponential(size=30)
+    w = rng.integers(1, 4, 30).astype(float)
+    a = bootstrap_interval(x, "mean", weights=w, n_resamples=500, rng=6)
+    b = bootstrap_interval(x, np.mean, weights=w, n_resamples=500, rng=6)
+    np.testing.assert_allclose(a.bootstrap_distribution, b.bootstrap_distribution, rtol=1e-12)
+    e = np.repeat(x, w.astype(int))
+    assert b.estimate == pytest.approx(e.mean(), rel=1e-12)
+    assert a.acceleration == pytest.approx(brute_jackknife_a(e, np.mean), rel=1e-9)
+    assert b.acceleration == pytest.approx(brute_jackknife_a(e, np.mean), rel=1e-9)
+
+
+def test_weighted_replicates_and_weighted_intervals_draw_the_same_counts() -> None:
+    """fit_replicates('empirical') with weights and bootstrap_interval with the same weights and
+    seed resample the same units: replicate means equal the bootstrap distribution."""
+    from samplewright.fitting.replicates import fit_replicates
+
+    rng = np.random.default_rng(17)
+    x = rng.lognormal(size=40)
+    w = rng.integers(1, 5, 40).astype(float)
+    ens = fit_replicates(x, "empirical", weights=w, n_replicates=60, rng=8)
+    means = [ens.replicate(i).mean for i in range(60)]
+    r = bootstrap_interval(x, "mean", weights=w, n_resamples=60, rng=8)
+    np.testing.assert_allclose(means, r.bootstrap_distribution, rtol=1e-12)
+
+
+def test_in_place_evaluation_matches_numpy_row_by_row() -> None:
+    """The reused-buffer path gives numpy's quantile and tail sums of each resample exactly."""
+    # source: numpy's inverted-CDF quantile of each resample, same seed and draws
+    x = np.random.default_rng(18).lognormal(size=397)
+    r = bootstrap_interval(x, "quantile:0.9", method="percentile", n_resamples=50, rng=9)
+    idx = np.random.default_rng(9).integers(0, 397, (50, 397))
+    want = np.quantile(x[idx], 0.9, axis=1, method="inverted_cdf")
+    np.testing.assert_array_equal(r.bootstrap_distribution, want)
+    t = bootstrap_interval(x, "tail_mean:0.9", method="percentile", n_resamples=50, rng=9)
+    np.testing.assert_allclose(t.bootstrap_distribution, parse_statistic("tail_mean:0.9")(x[idx]))
 
 
 def test_constant_data_give_a_point_interval() -> None:
@@ -243,7 +337,11 @@ def test_auto_block_length_uses_the_politis_white_value() -> None:
         ({"scheme": "blocks"}, "scheme"),
         ({"block_length": "auto"}, "block_length"),
         ({"scheme": "moving", "method": "basic", "block_length": "long"}, "block_length"),
-        ({"statistic": np.mean, "weights": np.ones(20)}, "weights"),
+        ({"statistic": np.mean, "weights": np.full(20, 1.5)}, "weights"),
+        (
+            {"scheme": "moving", "method": "basic", "block_length": 2, "weights": np.ones(20) * 2},
+            "weights",
+        ),
         ({"statistic": 3}, "statistic"),
         ({"statistic": lambda s, axis=-1: s}, "statistic"),
     ],
@@ -261,6 +359,21 @@ def test_bad_values_raise_input_errors() -> None:
     for bad in ([1.0, np.inf], [[1.0, 2.0]], [3.0]):
         with pytest.raises(InputDataError, match="^values"):
             bootstrap_interval(bad, "mean")
+
+
+@pytest.mark.parametrize(
+    ("weights", "match"),
+    [
+        (np.full(10, 0.1), "add up to at least 2 units, found a sum of 1"),
+        (np.r_[-1.0, np.ones(9)], "finite numbers >= 0"),
+        (np.ones(9), "expected 10 weights"),
+        (np.r_[np.zeros(9), 5.0], "at least 2 rows of positive weight"),
+    ],
+)
+def test_bad_weights_raise_one_line_input_errors(weights: np.ndarray, match: str) -> None:
+    """Shares that add up to 1, negative weights, a wrong count or one row: refused clearly."""
+    with pytest.raises(InputDataError, match=f"^weights: .*{match}"):
+        bootstrap_interval(np.arange(10.0), "mean", weights=weights)
 
 
 def test_interval_from_distribution_needs_acceleration_for_bca() -> None:
@@ -282,3 +395,37 @@ def test_memory_stays_bounded_at_a_million_rows() -> None:
         tracemalloc.stop()
         assert r.low <= r.high
         assert peak < 400e6  # 9,999 resamples add only their 80 kB distribution to this
+
+
+_PEAK_SCRIPT = """
+import resource, sys
+import numpy as np
+from samplewright.resample.intervals import bootstrap_interval
+x = np.random.default_rng(16).lognormal(size=1_000_000)
+before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+r = bootstrap_interval(x, sys.argv[1], method="bca", n_resamples=int(sys.argv[2]), rng=1)
+assert r.low <= r.estimate <= r.high
+print(before, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
+"""
+
+
+@pytest.mark.slow
+def test_peak_memory_at_a_million_rows_does_not_grow_with_resamples() -> None:
+    """n = 1e6, BCa: peak RSS (ru_maxrss of a fresh process) stays under 1 GB and is the same
+    for 24 and 240 resamples, so 9,999 resamples add only their 80 kB distribution."""
+    import subprocess
+    import sys
+
+    peaks = {}
+    for name in ("mean", "quantile:0.99"):
+        for b in (24, 240):
+            out = subprocess.run(
+                [sys.executable, "-c", _PEAK_SCRIPT, name, str(b)],
+                capture_output=True, text=True, check=True, timeout=600,
+            )  # fmt: skip
+            before, after = (int(v) * 1024 for v in out.stdout.split())  # Linux: kB
+            peaks[name, b] = after
+            assert after < 1e9, (name, b, after)
+            assert after - before < 0.5e9  # x is 8 MB; a batch of 8 resamples 2 x 64 MB
+        # a batch is the same size whatever the number of resamples: allow allocator noise
+        assert abs(peaks[name, 240] - peaks[name, 24]) < 32e6, peaks

@@ -120,8 +120,9 @@ def test_weighted_iid_draws_follow_the_weights() -> None:
 
 
 def test_equal_weights_are_no_weights() -> None:
-    """All-equal weights give exactly the unweighted draws."""
-    a = np.concatenate(list(draw_indices(12, 6, weights=np.full(12, 3.0), rng=7)))
+    """All-one weights give exactly the unweighted draws (weights count observations, so all-3
+    weights would mean the data tripled)."""
+    a = np.concatenate(list(draw_indices(12, 6, weights=np.ones(12), rng=7)))
     b = np.concatenate(list(draw_indices(12, 6, rng=7)))
     np.testing.assert_array_equal(a, b)
 

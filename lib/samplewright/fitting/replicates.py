@@ -8,7 +8,9 @@ Two kinds of replicate, both refitted by ``fit`` with the same method and option
   from the same seed). Weighted data: the weights are frequency weights, so a resample draws
   ``m = round(sum(w))`` units, unit of row ``i`` with probability ``w_i / sum(w)``; a row's new
   weight is how often it was drawn (times ``sum(w) / m``, which is 1 for whole-number weights).
-  Whole-number weights thus behave exactly like the rows repeated.
+  Whole-number weights thus behave exactly like the rows repeated. The counts are those of
+  :meth:`samplewright.resample.schemes.IIDScheme.count_batches`, the draws ``bootstrap_interval``
+  makes for weighted data from the same seed. Weights that are all 1 are no weights.
 * ``parametric``: a sample simulated from the point fit, as large as the data (``n`` values, or
   ``sum(w)`` for whole-number frequency weights; other weights are refused). Censoring is
   reproduced where it was observed: a row censored at ``c`` gives ``min(y, c)``, censored when
@@ -23,6 +25,9 @@ fit reach the caller.
 
 Randomness: one stream from ``rng`` makes every replicate in order; the same ``rng`` gives the
 same ensemble (in a pipeline, pass ``stream_rng(root_seed, dataset, "replicates")``).
+
+A terminal shows the progress of the replicate fits (:mod:`samplewright.core.progress`); logs
+get nothing.
 """
 
 from __future__ import annotations
@@ -35,6 +40,7 @@ import numpy as np
 
 from samplewright.core.checks import CheckedSample
 from samplewright.core.errors import FitError, MethodError, SamplewrightError
+from samplewright.core.progress import progress
 from samplewright.core.randomness import SeedLike, make_rng
 from samplewright.distributions.base import Sampler
 from samplewright.distributions.ensemble import REPLICATIONS, EnsembleSampler, Replication
@@ -121,17 +127,20 @@ def fit_replicates(
     reps: list[Sampler] = []
     failures: list[dict[str, Any]] = []
     warned: list[dict[str, Any]] = []
-    for attempt, (x, w, c) in enumerate(rows):
-        with _warnings.catch_warnings(record=True) as caught:
-            _warnings.simplefilter("always")
-            try:
-                rep = fit(x, method, weights=w, censored=c, **options)
-            except FIT_FAILURES as exc:
-                failures.append({"attempt": attempt, "message": f"{type(exc).__name__}: {exc}"})
-                continue
-        if caught:
-            warned.append({"attempt": attempt, "message": str(caught[0].message)})
-        reps.append(rep)
+    with progress(int(n_replicates), "replicate fits") as line:
+        for attempt, (x, w, c) in enumerate(rows):
+            line.update(attempt)
+            with _warnings.catch_warnings(record=True) as caught:
+                _warnings.simplefilter("always")
+                try:
+                    rep = fit(x, method, weights=w, censored=c, **options)
+                except FIT_FAILURES as exc:
+                    failures.append({"attempt": attempt, "message": f"{type(exc).__name__}: {exc}"})
+                    continue
+            if caught:
+                warned.append({"attempt": attempt, "message": str(caught[0].message)})
+            reps.append(rep)
+        line.update(int(n_replicates))
     if len(reps) < 2:
         first = failures[0]["message"] if failures else "none"
         raise FitError(
@@ -161,23 +170,17 @@ def _resampled(sample: CheckedSample, n_rep: int, gen: np.random.Generator) -> I
     x, w, c = sample.values, sample.weights, sample.censored
     if sample.n < 2:
         raise MethodError(f"values: nonparametric replicates need at least 2 rows, found {x.size}")
-    if w is None:
-        for batch in IIDScheme(x).index_batches(n_rep, gen):
+    scheme = IIDScheme(x, weights=w)  # frequency weights; weights that are all 1 are none
+    if scheme.weights is None:
+        for batch in scheme.index_batches(n_rep, gen):
             for idx in batch:
                 yield x[idx], None, None if c is None else c[idx]
         return
-    total = float(w.sum())
-    m = round(total)
-    if m < 1:
-        raise MethodError(
-            f"weights: a resample draws round(sum(weights)) units; the weights sum to {total!r}"
-        )
-    p = w / total
-    scale = total / m
-    for _ in range(n_rep):
-        counts = gen.multinomial(m, p)
-        keep = counts > 0
-        yield x[keep], counts[keep] * scale, None if c is None else c[keep]
+    scale = float(scheme.weights.sum()) / scheme.n_units
+    for batch in scheme.count_batches(n_rep, gen):
+        for counts in batch:
+            keep = counts > 0
+            yield x[keep], counts[keep] * scale, None if c is None else c[keep]
 
 
 def _simulated(

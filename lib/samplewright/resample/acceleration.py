@@ -15,11 +15,12 @@ the differences of the leave-one-out estimates, ``a = sum d**3 / (6 (sum d**2)**
   in the sorted sample, so the whole estimate costs one sort;
 * a callable statistic gets the ordinary jackknife for n <= 2000 and the grouped one above
   (m = 100 groups, 20 groupings), evaluated in batches of bounded memory;
-* with weights, ``a = sum p U**3 / (6 sqrt(n) (sum p U**2)**1.5)`` from the statistic's
-  empirical influence values ``U`` under the weighted empirical distribution (probabilities
-  ``p``; derivation: the skewness of the linear approximation of the statistic under
-  multinomial resampling with probabilities ``p``). With equal weights this is the jackknife
-  formula for the mean.
+* with frequency weights, ``a = sum p U**3 / (6 sqrt(m) (sum p U**2)**1.5)`` from the
+  statistic's empirical influence values ``U`` under the weighted empirical distribution
+  (probabilities ``p = w / sum(w)``, ``m = round(sum(w))`` units a resample; derivation: the
+  skewness of the linear approximation of the statistic under multinomial resampling of ``m``
+  units). For the mean with whole-number weights this is exactly the jackknife of the rows
+  repeated; for quantiles it is the smooth value the repeated rows' jackknife cannot give.
 
 When the estimates do not vary (constant data), ``a = 0``.
 """
@@ -47,14 +48,17 @@ def acceleration(
     *,
     weights: np.ndarray | None,
     gen: np.random.Generator,
+    n_units: int | None = None,
 ) -> float:
     """The BCa acceleration of ``statistic`` on ``values`` (checked 1-d finite, n >= 2).
 
-    ``gen`` is used only by the grouped jackknife (to draw the random groups).
+    ``weights`` (normalised to sum 1) come with ``n_units``, the size of a resample (default
+    ``n``). ``gen`` is used only by the grouped jackknife (to draw the random groups).
     """
     if isinstance(statistic, NamedStatistic):
         if weights is not None:
-            return _from_influence(statistic.influence(values, weights), weights)
+            m = values.size if n_units is None else n_units
+            return _from_influence(statistic.influence(values, weights), weights, m)
         if statistic.name in ("quantile", "tail_mean"):
             return _grouped_order_statistic(statistic, values, gen)
         return _from_deletions(_leave_one_out(statistic, values))
@@ -73,12 +77,12 @@ def _from_deletions(theta: np.ndarray) -> float:
     return float(np.sum(d**3) / (6.0 * ss**1.5))
 
 
-def _from_influence(u: np.ndarray, p: np.ndarray) -> float:
+def _from_influence(u: np.ndarray, p: np.ndarray, n_units: int) -> float:
     """``a`` from influence values ``u`` (weighted mean 0) under probabilities ``p``."""
     m2 = float(p @ (u * u))
     if m2 <= (64 * np.finfo(float).eps * float(np.max(np.abs(u)))) ** 2:
         return 0.0
-    return float((p @ u**3) / (6.0 * math.sqrt(u.size) * m2**1.5))
+    return float((p @ u**3) / (6.0 * math.sqrt(n_units) * m2**1.5))
 
 
 def _leave_one_out(stat: NamedStatistic, x: np.ndarray) -> np.ndarray:

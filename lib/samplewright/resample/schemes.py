@@ -5,8 +5,10 @@ resample is ``values.take(indices)``. The base :class:`IIDScheme` does all the d
 (checking the values and the optional weights, batching, gathering values); each block scheme
 overrides only :meth:`IIDScheme._indices`, the way one batch of indices is drawn:
 
-* ``iid`` -- every row is drawn independently, uniformly or, with weights, with probability
-  proportional to its weight (Walker's alias table, built in O(n log n) without a Python loop);
+* ``iid`` -- every row is drawn independently and uniformly; with frequency weights a resample is
+  ``m = round(sum(weights))`` units, each unit row ``i`` with probability ``w_i / sum(w)``
+  (a multinomial count per row, :meth:`IIDScheme.count_batches`), so whole-number weights
+  behave exactly like the rows repeated;
 * ``moving`` -- blocks of ``block_length`` consecutive rows starting anywhere a whole block fits
   (Kuensch 1989), glued together and cut to ``n`` rows;
 * ``circular`` -- the same, but the rows are put on a circle so a block may wrap from the last row
@@ -14,15 +16,17 @@ overrides only :meth:`IIDScheme._indices`, the way one batch of indices is drawn
 * ``stationary`` -- blocks of random length, geometric with mean ``block_length``, that start
   anywhere and wrap around (Politis & Romano 1994, JASA 89:1303-1313).
 
-Block schemes keep the order of a time series; they take no weights.
+Block schemes keep the order of a time series; they take no weights (a row of weight 3 would be
+three observations at the same time, which a time series does not have).
 
 Memory is bounded: without an explicit ``batch`` a batch holds about 2**23 indices (64 MiB), so
 ``n = 1e6`` rows are drawn 8 resamples at a time whatever ``n_resamples`` is.
 
 Reproducibility: the same ``rng`` seed gives the same indices. For ``iid``, ``moving`` and
 ``circular`` the indices do not depend on ``batch`` either (unweighted ``iid`` draws exactly what
-``rng.integers(0, n, (n_resamples, n))`` draws, as ``scipy.stats.bootstrap`` does); ``stationary``
-indices depend on the batch size.
+``rng.integers(0, n, (n_resamples, n))`` draws, as ``scipy.stats.bootstrap`` does, and weighted
+``iid`` what ``rng.multinomial(m, w / sum(w), n_resamples)`` draws); ``stationary`` indices
+depend on the batch size.
 """
 
 from __future__ import annotations
@@ -109,25 +113,31 @@ def alias_table(weights: Any) -> tuple[np.ndarray, np.ndarray]:
 
 
 class IIDScheme:
-    """Independent resampling of rows: uniform, or proportional to ``weights``.
+    """Independent resampling of rows: uniform, or of units of frequency weight.
 
     Parameters
     ----------
     values : array_like
         One-dimensional finite values (at least 2).
     weights : array_like, optional
-        Finite positive weights, one per value (drop rows of weight 0 beforehand). Weights
-        that are all equal are dropped (identical to no weights). A resample has ``n`` rows
-        whatever the weights: they are sampling probabilities, not counts.
+        Frequency weights, finite and positive, one per value (drop rows of weight 0
+        beforehand): a row of weight 3 is three observations. A resample is
+        ``m = round(sum(weights))`` units (at least 2), the unit of row ``i`` drawn with
+        probability ``w_i / sum(w)``; whole-number weights thus resample exactly like the rows
+        repeated (``np.repeat(values, weights)``). Fractional weights keep the same rule: the
+        resample has the rounded total size and the weighted empirical distribution. Weights
+        that are all 1 are dropped (identical to no weights).
 
     Attributes
     ----------
     values : numpy.ndarray
         The checked values, float64.
     weights : numpy.ndarray or None
-        The weights normalised to sum to 1, or ``None``.
+        The frequency weights as given (float64), or ``None``.
     n : int
-        Number of rows; every resample has ``n`` rows.
+        Number of rows.
+    n_units : int
+        Size of a resample: ``n``, or ``round(sum(weights))`` with weights.
     block_length : float or None
         ``None`` here; the block length for block schemes.
     """
@@ -137,51 +147,86 @@ class IIDScheme:
     def __init__(self, values: Any, *, weights: Any = None) -> None:
         self.values = check_values(values)
         self.n = int(self.values.size)
+        self.n_units = self.n
         self.block_length: float | None = None
         self.weights: np.ndarray | None = None
-        self._alias: tuple[np.ndarray, np.ndarray] | None = None
+        self._p: np.ndarray | None = None
         if weights is not None:
             w = _check_weights(weights, self.n)
-            if not np.all(w == w[0]):
-                self.weights = w / w.sum()
-                self._alias = alias_table(w)
+            if not np.all(w == 1.0):
+                total = float(w.sum())
+                if round(total) < 2:
+                    raise InputDataError(
+                        "weights: frequency weights (a row of weight 3 is three observations)"
+                        f" must add up to at least 2 units, found a sum of {total:.6g}; scale"
+                        " shares or probabilities to counts"
+                    )
+                self.weights = w
+                self.n_units = round(total)
+                self._p = w / total
 
     def draw_indices(self, size: int, rng: SeedLike = None) -> np.ndarray:
-        """Row indices of ``size`` resamples, an int64 array of shape ``(size, n)``."""
+        """Row indices of ``size`` resamples, an int64 array of shape ``(size, n_units)``."""
         if isinstance(size, bool) or not isinstance(size, int | np.integer) or size < 0:
             raise MethodError(f"size: expected a non-negative int, found {size!r}")
         return self._indices(int(size), make_rng(rng))
 
+    def default_batch(self, n_resamples: int) -> int:
+        """Resamples per batch when the caller gives none (about 2**23 indices, or 2**21 count
+        cells with weights: a weighted batch holds several count-sized arrays at once)."""
+        if self._p is None:
+            return default_batch(self.n_units, n_resamples)
+        return default_batch(4 * max(self.n, self.n_units), n_resamples)
+
     def index_batches(
         self, n_resamples: int, rng: SeedLike = None, *, batch: int | None = None
     ) -> Iterator[np.ndarray]:
-        """Yield index arrays of shape ``(batch, n)`` (the last may be shorter), in order."""
+        """Yield index arrays of shape ``(batch, n_units)`` (the last may be shorter), in order.
+
+        With weights, the indices of a resample are its units, sorted by row: the rows of
+        :meth:`count_batches` repeated by their counts (the same draws, another view).
+        """
         n_resamples = check_count(n_resamples, "n_resamples")
-        step = default_batch(self.n, n_resamples) if batch is None else check_count(batch, "batch")
+        step = self.default_batch(n_resamples) if batch is None else check_count(batch, "batch")
         gen = make_rng(rng)
         for start in range(0, n_resamples, step):
             yield self._indices(min(step, n_resamples - start), gen)
 
+    def count_batches(
+        self, n_resamples: int, rng: SeedLike = None, *, batch: int | None = None
+    ) -> Iterator[np.ndarray]:
+        """Yield how often each row is drawn, int64 arrays of shape ``(batch, n)``.
+
+        With weights: ``rng.multinomial(n_units, w / sum(w), batch)``, in O(n) per resample
+        whatever the weights add up to. Without: the row counts of :meth:`index_batches`.
+        """
+        n_resamples = check_count(n_resamples, "n_resamples")
+        step = self.default_batch(n_resamples) if batch is None else check_count(batch, "batch")
+        gen = make_rng(rng)
+        for start in range(0, n_resamples, step):
+            yield self._counts(min(step, n_resamples - start), gen)
+
     def resample_batches(
         self, n_resamples: int, rng: SeedLike = None, *, batch: int | None = None
     ) -> Iterator[np.ndarray]:
-        """Yield resampled values, arrays of shape ``(batch, n)``."""
+        """Yield resampled values, arrays of shape ``(batch, n_units)``."""
         for idx in self.index_batches(n_resamples, rng, batch=batch):
             yield self.values.take(idx)
 
+    def _counts(self, size: int, gen: np.random.Generator) -> np.ndarray:
+        if self._p is not None:
+            return gen.multinomial(self.n_units, self._p, size=size)
+        idx = self._indices(size, gen)
+        idx += np.arange(size)[:, None] * self.n
+        return np.bincount(idx.ravel(), minlength=size * self.n).reshape(size, self.n)
+
     def _indices(self, size: int, gen: np.random.Generator) -> np.ndarray:
         """One batch of indices; block schemes override this and nothing else."""
-        if self._alias is None:
+        if self._p is None:
             return gen.integers(0, self.n, (size, self.n))
-        keep, alias = self._alias
-        # one uniform per draw: its integer part picks the cell, its fraction keep-or-alias
-        # (the fraction keeps about 53 - log2(n) bits, ample for any n that fits in memory)
-        u = gen.random((size, self.n))
-        u *= self.n
-        cell = u.astype(np.int64)
-        np.minimum(cell, self.n - 1, out=cell)
-        u -= cell
-        return np.where(u < keep[cell], cell, alias[cell])
+        counts = self._counts(size, gen)
+        rows = np.broadcast_to(np.arange(self.n), counts.shape)
+        return np.repeat(rows.ravel(), counts.ravel()).reshape(size, self.n_units)
 
 
 class _BlockScheme(IIDScheme):
@@ -265,7 +310,8 @@ def make_scheme(
     block_length: float | None = None,
     weights: Any = None,
 ) -> IIDScheme:
-    """The scheme object for ``values``; block schemes need ``block_length`` and take no weights.
+    """The scheme object for ``values``; block schemes need ``block_length`` and take no weights
+    (``weights`` are frequency weights, see :class:`IIDScheme`).
 
     >>> make_scheme([1.0, 2.0, 3.0, 4.0], scheme="circular", block_length=2).draw_indices(
     ...     2, rng=0).tolist()
@@ -298,7 +344,8 @@ def draw_indices(
     rng: SeedLike = None,
     batch: int | None = None,
 ) -> Iterator[np.ndarray]:
-    """Yield row indices of ``n_resamples`` resamples of ``n`` rows, in batches ``(batch, n)``.
+    """Yield row indices of ``n_resamples`` resamples of ``n`` rows, in batches ``(batch, n)``
+    (``(batch, round(sum(weights)))`` with frequency weights).
 
     Only one batch is in memory at a time; ``batch=None`` picks about 2**23 indices per batch.
 

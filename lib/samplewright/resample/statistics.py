@@ -19,11 +19,13 @@ name                 value
 ===================  ================================================================
 
 Unweighted statistics are computed along the last axis of a ``(batch, n)`` array at once (order
-statistics through ``np.partition``, never a Python loop). Weighted data are resampled with
-probabilities proportional to the weights, so a resample is unweighted: only the estimate on the
-original data uses the weights. Cumulative weights are compared with ``p`` up to a relative
-``1e-11``, so a level that the weights reach exactly (``0.3`` with ten weights of ``0.1``) counts
-as reached.
+statistics through ``np.partition``, never a Python loop). Weights are frequency weights (a row
+of weight 3 is three observations): :meth:`NamedStatistic.weighted` evaluates a statistic on
+rows of counts (a ``(batch, n)`` array of how often each value was drawn, or the weights
+themselves), which is what a resample of weighted data is; on whole-number counts it equals the
+unweighted statistic of the values repeated that often. Cumulative weights are compared with
+``p`` up to a relative ``1e-11``, so a level that the weights reach exactly (``0.3`` with ten
+weights of ``0.1``) counts as reached.
 """
 
 from __future__ import annotations
@@ -96,21 +98,67 @@ class NamedStatistic:
         )
 
     def estimate(self, values: np.ndarray, weights: np.ndarray | None = None) -> float:
-        """The statistic of one sample, with weights (normalised to sum 1) when given."""
+        """The statistic of one sample, with frequency weights (any positive scale) when given."""
         if weights is None:
             return float(self(values))
-        x, w = values, weights
+        return float(self.weighted(values, np.asarray(weights, dtype=np.float64)[None, :])[0])
+
+    def weighted(self, values: np.ndarray, counts: np.ndarray) -> np.ndarray:
+        """The statistic of each row of ``counts``, frequency weights of ``values``, vectorised.
+
+        ``counts`` has shape ``(batch, n)`` (non-negative, each row with a positive sum): how
+        often each value was drawn in each resample, or weights. Values in ascending order
+        save a sort (it is checked in O(n)).
+
+        >>> s = parse_statistic("quantile:0.5")
+        >>> s.weighted(np.array([1.0, 2.0, 3.0]), np.array([[3, 0, 1], [0, 1, 3]])).tolist()
+        [1.0, 3.0]
+        """
+        x = np.asarray(values, dtype=np.float64)
+        c = np.asarray(counts, dtype=np.float64)
+        if x.size > 1 and not np.all(x[:-1] <= x[1:]):
+            order = np.argsort(x, kind="stable")
+            x, c = x[order], c[:, order]
+        total = c.sum(axis=-1)
         if self.name == "mean":
-            return float(w @ x)
+            return (c @ x) / total
         if self.name == "std":
-            return float(math.sqrt(w @ (x - w @ x) ** 2))
+            d = x - ((c @ x) / total)[:, None]
+            d *= d
+            return np.sqrt(np.einsum("ij,ij->i", c, d) / total)
         if self.name == "exceedance":
-            return float(w[x > self.parameter].sum())
-        ys, ws, cum, j = self._weighted_order(x, w)
+            return c[:, np.searchsorted(x, self.parameter, side="right") :].sum(axis=-1) / total
+        p = self.parameter
+        cum = np.cumsum(c, axis=-1)
+        j = np.count_nonzero(cum < ((p - _CUM_TOL) * total)[:, None], axis=-1)
+        np.minimum(j, x.size - 1, out=j)
         if self.name == "quantile":
-            return float(ys[j])
-        inside = max(cum[j] - self.parameter, 0.0)
-        return float((inside * ys[j] + ws[j + 1 :] @ ys[j + 1 :]) / (1 - self.parameter))
+            return x[j]
+        inside = np.maximum(cum[np.arange(c.shape[0]), j] - p * total, 0.0)
+        beyond = np.where(np.arange(x.size) > j[:, None], c * x, 0.0).sum(axis=-1)
+        return (inside * x[j] + beyond) / (total * (1 - p))
+
+    def evaluate_inplace(self, sample: np.ndarray) -> np.ndarray:
+        """The statistic of each row of a C-contiguous ``(batch, n)`` float64 array that may be
+        overwritten (reordered or transformed): the same numbers as calling the statistic,
+        without its full-size temporary copies."""
+        n = sample.shape[-1]
+        if self.name == "std":
+            # numpy's own std, step by step, in place: the same rounding
+            mean = np.add.reduce(sample, axis=-1, keepdims=True)
+            mean /= n
+            sample -= mean
+            sample *= sample
+            return np.sqrt(np.add.reduce(sample, axis=-1) / n)
+        if self.name in ("quantile", "tail_mean"):
+            j = order_index(n, self.parameter)
+            sample.partition(j, axis=-1)
+            if self.name == "quantile":
+                return sample[..., j].copy()
+            beyond = sample[..., j + 1 :].sum(axis=-1)
+            p = self.parameter
+            return np.asarray(((j + 1 - n * p) * sample[..., j] + beyond) / (n * (1 - p)))
+        return self(sample)
 
     def influence(self, values: np.ndarray, weights: np.ndarray) -> np.ndarray:
         """Empirical influence values under the weighted empirical distribution, up to scale.

@@ -12,7 +12,11 @@
   of simulated draws, and the draws needed for a target precision, as JSON.
 
 Random streams come from ``--seed`` (the workflow's root seed) and stable names (``--stream``,
-then the command and the statistic), never from the order jobs run in. The command group follows
+then the command and the statistic), never from the order jobs run in. ``interval`` prints each
+interval's warnings (a tail statistic from too few observations beyond its level) on stderr as
+``samplewright: warning: ...`` and keeps them in the JSON (``"warnings"``, per interval).
+``interval`` and ``replicate`` show their progress on a terminal, nothing in a log
+(:mod:`samplewright.core.progress`). The command group follows
 the shape of :mod:`samplewright.pipeline.cli`'s groups: :func:`add_commands` adds the
 subcommands; numpy, scipy and pandas are imported inside the commands only (the ``choices=``
 come from :mod:`samplewright.pipeline.choices`).
@@ -22,6 +26,8 @@ from __future__ import annotations
 
 import argparse
 import json
+import sys
+import warnings
 from pathlib import Path
 from typing import Any
 
@@ -142,6 +148,7 @@ def run_interval(args: argparse.Namespace) -> int:
     _check_seed(args.seed)
     check_outputs({"--out": args.out}, [args.data])
     from samplewright.core.canonical import canonical_json
+    from samplewright.core.progress import progress_label
     from samplewright.core.randomness import stream_rng
     from samplewright.resample.intervals import bootstrap_interval
 
@@ -155,18 +162,26 @@ def run_interval(args: argparse.Namespace) -> int:
         )
     streams = args.stream or [origin["column"]]
     results = []
-    for item in items:
-        r = bootstrap_interval(
-            data.values,
-            item["statistic"],
-            method=item["method"],
-            confidence_level=item["confidence_level"],
-            n_resamples=item["n_resamples"],
-            scheme=item["scheme"],
-            block_length=item["block_length"],
-            weights=data.weights,
-            rng=stream_rng(args.seed, *streams, "interval", canonical_json(item)),
-        )
+    for i, item in enumerate(items, 1):
+        label = f"{origin['column']} {item['statistic']} ({i}/{len(items)})"
+        with warnings.catch_warnings(record=True) as caught, progress_label(label):
+            warnings.simplefilter("always")
+            r = bootstrap_interval(
+                data.values,
+                item["statistic"],
+                method=item["method"],
+                confidence_level=item["confidence_level"],
+                n_resamples=item["n_resamples"],
+                scheme=item["scheme"],
+                block_length=item["block_length"],
+                weights=data.weights,
+                rng=stream_rng(args.seed, *streams, "interval", canonical_json(item)),
+            )
+        notes = list(r.warnings) + [
+            str(w.message) for w in caught if str(w.message) not in r.warnings
+        ]
+        for text in notes:
+            print(f"samplewright: warning: column {origin['column']!r}: {text}", file=sys.stderr)
         results.append(
             {
                 "statistic": r.statistic,
@@ -181,6 +196,7 @@ def run_interval(args: argparse.Namespace) -> int:
                 "block_length": r.block_length,
                 "bias_correction": _finite_or_none(r.bias_correction),
                 "acceleration": _finite_or_none(r.acceleration),
+                "warnings": notes,
             }
         )
     document = {
@@ -204,6 +220,7 @@ def run_replicate(args: argparse.Namespace) -> int:
     """Fit a method and its parameter replicates; write them as one ensemble artifact."""
     _check_seed(args.seed)
     check_outputs({"--out": args.out}, [args.data])
+    from samplewright.core.progress import progress_label
     from samplewright.core.randomness import stream_rng
     from samplewright.fitting.replicates import fit_replicates
     from samplewright.store.artifacts import write_sampler
@@ -212,16 +229,17 @@ def run_replicate(args: argparse.Namespace) -> int:
     data, origin = _read(args)
     streams = args.stream or [origin["column"]]
     try:
-        ens = fit_replicates(
-            data.values,
-            method,
-            n_replicates=args.replicates,
-            kind=args.kind,
-            weights=data.weights,
-            censored=data.censored,
-            rng=stream_rng(args.seed, *streams, "replicates", method),
-            **options,
-        )
+        with progress_label(f"{origin['column']} {method}"):
+            ens = fit_replicates(
+                data.values,
+                method,
+                n_replicates=args.replicates,
+                kind=args.kind,
+                weights=data.weights,
+                censored=data.censored,
+                rng=stream_rng(args.seed, *streams, "replicates", method),
+                **options,
+            )
     except SamplewrightError as exc:
         raise type(exc)(f"column {origin['column']!r} in {origin['source']}: {exc}") from None
     write_sampler(
