@@ -16,13 +16,22 @@ booster pump (new at the season start) fails after ``pump_life`` hours, adding a
 a hired stand-in pump for the new model's lead time (``pump_lead_time`` x ``pump_hire_rate``,
 both from expert judgement, no data).
 
+Breaks are not independent from district to district: every district shares the day's frost,
+and cold spells last days. ``daily_breaks`` is the fitted distribution of one district-day; the
+season couples the districts with a one-factor Gaussian copula whose factor (the day's frost)
+follows an AR(1) process from day to day. Each district-day keeps exactly the fitted marginal;
+the two copula correlations are solved so that the counts have the two correlations measured in
+the records and given in the config (``breaks_same_day_correlation``,
+``breaks_next_day_correlation``). Drawing districts independently would make the daily totals'
+variance about a third of the records' and understate every daily peak.
+
 Beside the central figures the script reports:
 
 * the season cost with and without the hours/rate dependence (the same seasons, with the
   selected ``repair_hours`` and ``crew_hour_cost`` samplers drawn independently);
 * parameter uncertainty: an outer loop over the ``repair_hours`` replicates (one plausible world
   each) around an inner loop of seasons, so the spread between worlds shows how much the finite
-  record of repairs leaves open;
+  record of repairs leaves open; the season cost figures carry it as ``parameter_interval_90``;
 * the data's own bootstrap intervals computed by the rules (a block bootstrap for the serially
   dependent daily breaks, next to the iid one that ignores the dependence).
 """
@@ -36,6 +45,8 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+from scipy.optimize import brentq
+from scipy.special import ndtr, ndtri
 
 import samplewright as sw
 
@@ -57,6 +68,13 @@ SAMPLERS = {
     "damage": "selected sampler of damage_claims",
     "lead-time": "selected sampler of pump_lead_time",
     "hire-rate": "selected sampler of pump_hire_rate",
+}
+# season cost figures: name in the JSON -> statistic
+COST_STATISTICS = {
+    "p50": "quantile:0.5",
+    "p90": "quantile:0.9",
+    "p99": "quantile:0.99",
+    "tail_mean_99": "tail_mean:0.99",
 }
 FILES = {
     "joint-draws": "stored draws of the joint sampler (Parquet)",
@@ -84,15 +102,32 @@ def _round_to(x: float, se: float) -> float | int:
     return int(round(x, decimals)) if decimals <= 0 else round(x, decimals)
 
 
+def _figure(estimate: float, se: float, low: float, high: float) -> dict[str, Any]:
+    return {
+        "value": _round_to(estimate, se),
+        "mc_standard_error": _round_sig(se),
+        "mc_interval_95": [_round_to(low, se), _round_to(high, se)],
+    }
+
+
 def figure(draws: np.ndarray, statistic: str) -> dict[str, Any]:
     """A statistic of independent draws with its Monte Carlo standard error and 95 % interval."""
     r = sw.mc_error(np.asarray(draws, dtype=np.float64).ravel(), statistic)
-    se = _round_sig(r.standard_error)
-    return {
-        "value": _round_to(r.estimate, r.standard_error),
-        "mc_standard_error": se,
-        "mc_interval_95": [_round_to(r.low, r.standard_error), _round_to(r.high, r.standard_error)],
-    }
+    return _figure(r.estimate, r.standard_error, r.low, r.high)
+
+
+def figure_by_season(values: np.ndarray, statistic: str, n_batches: int = 40) -> dict[str, Any]:
+    """A statistic of per-day values (rows: seasons), with a batch-means standard error.
+
+    The days of one season are dependent (cold spells), seasons are independent: the statistic
+    of each of ``n_batches`` groups of whole seasons is an independent estimate, and their spread
+    over ``sqrt(n_batches)`` is the error of the pooled one (batch means, common practice in
+    simulation output analysis); interval: estimate +- 1.96 standard errors.
+    """
+    estimate = sw.mc_error(values.ravel(), statistic).estimate
+    each = [sw.mc_error(g.ravel(), statistic).estimate for g in np.array_split(values, n_batches)]
+    se = float(np.std(each, ddof=1)) / math.sqrt(n_batches)
+    return _figure(estimate, se, estimate - 1.959964 * se, estimate + 1.959964 * se)
 
 
 def spread(values: np.ndarray, level: float = 0.9) -> dict[str, Any]:
@@ -104,16 +139,136 @@ def spread(values: np.ndarray, level: float = 0.9) -> dict[str, Any]:
     }
 
 
+# --- daily breaks: the districts share each day's frost -----------------------------------------
+
+
+class Given:
+    """Uniforms handed to ``draw`` (a uniform source): the draws are their quantiles."""
+
+    def __init__(self, u: np.ndarray) -> None:
+        self.u = u
+
+    def uniforms(self, shape: tuple[int, ...]) -> np.ndarray:
+        return self.u.reshape(shape)
+
+
+# Gauss-Legendre nodes on [-1, 1] for the integral over the copula correlation below
+_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(48)
+
+
+def count_covariance(cdf: np.ndarray, rho: float) -> float:
+    """Covariance of two counts with cdf values ``cdf`` at 0, 1, ..., K, joined by a Gaussian
+    copula of correlation ``rho``.
+
+    Hoeffding's formula for counts: Cov = sum over i, j >= 0 of P(X > i, Y > j) - P(X > i)
+    P(Y > j). With normal scores z_i = Phi^-1(F(i)) each term is Phi2(z_i, z_j; rho) -
+    Phi(z_i) Phi(z_j), the integral from 0 to rho of the bivariate normal density at (z_i, z_j)
+    (Plackett 1954: d Phi2 / d rho is that density), here by Gauss-Legendre quadrature.
+    """
+    z = ndtri(cdf[(cdf > 0.0) & (cdf < 1.0)])
+    h, k = z[:, None], z[None, :]
+    total = 0.0
+    for node, weight in zip(_NODES, _WEIGHTS, strict=True):
+        t = 0.5 * rho * (node + 1.0)
+        q = (h * h - 2.0 * t * h * k + k * k) / (2.0 * (1.0 - t * t))
+        total += (
+            0.5 * rho * weight * float(np.exp(-q).sum()) / (2.0 * math.pi * math.sqrt(1 - t * t))
+        )
+    return total
+
+
+class SharedFrost:
+    """Counts per district-day from ``breaks``, coupled within and across days.
+
+    Latent frost of day d: ``Z_d``, standard normal, AR(1) with coefficient ``phi``; district k:
+    ``Y = sqrt(r) Z_d + sqrt(1 - r) e``, ``u = Phi(Y)``, count = ``breaks``' quantile of u. So
+    each district-day keeps the fitted distribution exactly, two districts' counts on one day have
+    the correlation ``same_day``, and the network totals of consecutive days ``next_day``.
+    """
+
+    def __init__(
+        self, breaks: sw.Sampler, districts: int, same_day: float, next_day: float
+    ) -> None:
+        lo, _ = breaks.support
+        top = float(breaks.quantile(1.0 - 1e-13))
+        if lo < 0 or not math.isfinite(top):
+            raise ValueError(f"--breaks: expected a count sampler on 0, 1, ..., found {lo}..{top}")
+        self.breaks, self.districts = breaks, districts
+        self.cdf = np.asarray(breaks.cdf(np.arange(int(top) + 1.0)), dtype=np.float64)
+        probe = sw.make_rng(0).random(4096)  # the table lookup below is breaks.quantile
+        if not np.array_equal(self._quantile(probe), breaks.quantile(probe)):
+            raise ValueError("--breaks: expected a sampler of whole counts (0, 1, 2, ...)")
+        if not (0.0 <= same_day < 1.0 and 0.0 <= next_day < 1.0):
+            raise ValueError(
+                "season: breaks_same_day_correlation and breaks_next_day_correlation must lie "
+                f"in [0, 1), found {same_day} and {next_day}"
+            )
+        var = float(breaks.var)
+
+        def cov(rho: float) -> float:
+            return count_covariance(self.cdf, rho)
+
+        self.r = brentq(lambda r: cov(r) - same_day * var, 0.0, 0.999) if same_day else 0.0
+        # covariance of two district-days on consecutive days: the totals' correlation times
+        # the totals' variance, spread over districts**2 pairs
+        var_total = districts * var * (1.0 + (districts - 1) * same_day)
+        target = next_day * var_total / districts**2
+        if target > cov(self.r):
+            raise ValueError(
+                f"season: breaks_next_day_correlation {next_day} needs a stronger same-day "
+                f"dependence than breaks_same_day_correlation {same_day} gives"
+            )
+        self.phi = brentq(lambda f: cov(self.r * f) - target, 0.0, 1.0) if target else 0.0
+
+    def _quantile(self, u: np.ndarray) -> np.ndarray:
+        """``breaks.quantile(u)`` by its cdf table (the smallest count whose cdf reaches u): the
+        same counts, some 25 times faster than scipy's inversion of a count family."""
+        k = np.searchsorted(self.cdf, u, side="left").astype(np.float64)
+        beyond = k >= self.cdf.size
+        if beyond.any():
+            k[beyond] = self.breaks.quantile(u[beyond])
+        return k
+
+    def daily_totals(self, n_seasons: int, days: int, rng: np.random.Generator) -> np.ndarray:
+        """Breaks per day summed over districts, shape (n_seasons, days), 250 seasons at once."""
+        out = np.empty((n_seasons, days), dtype=np.int64)
+        a, b = math.sqrt(self.r), math.sqrt(1.0 - self.r)
+        for start in range(0, n_seasons, 250):
+            m = min(250, n_seasons - start)
+            frost = rng.standard_normal((m, days))
+            for d in range(1, days):  # AR(1), stationary from the first day
+                frost[:, d] = self.phi * frost[:, d - 1] + math.sqrt(1 - self.phi**2) * frost[:, d]
+            y = a * frost[:, :, None] + b * rng.standard_normal((m, days, self.districts))
+            u = np.clip(ndtr(y), 1e-300, np.nextafter(1.0, 0.0))
+            out[start : start + m] = self._quantile(u.ravel()).reshape(u.shape).sum(axis=2)
+        return out
+
+
 # --- the season model ---------------------------------------------------------------------------
 
 
-def draw_breaks(
-    breaks: sw.Sampler, n_seasons: int, cfg: dict[str, Any], rng: np.random.Generator
-) -> np.ndarray:
-    """Breaks per day, summed over districts: shape (n_seasons, days)."""
-    days, districts = int(cfg["days"]), int(cfg["districts"])
-    counts = breaks.draw((n_seasons, days, districts), rng=rng)
-    return counts.sum(axis=2).astype(np.int64)
+def coupled_uniforms(joint: Any, n: int, gen: np.random.Generator) -> np.ndarray:
+    """The joint sampler's copula uniforms, (n, 2), exactly as its own ``draw`` makes them.
+
+    Drawn here step by step so that each parameter world can send the same uniforms through its
+    own repair-hour replicate while the rate keeps its dependence on the hours.
+    """
+    from samplewright.fitting.copulas import gaussian_copula_uniforms
+
+    if joint.coupling != "gaussian_copula":
+        raise ValueError(f"--joint: expected a gaussian_copula coupling, found {joint.coupling!r}")
+    u = gen.random((n, len(joint.columns)))
+    u[u <= 0.0] = 0.5 / max(n, 1)
+    return np.asarray(gaussian_copula_uniforms(joint.correlation, u))
+
+
+def check_coupled_uniforms(joint: Any, seed: int) -> None:
+    """Refuse to go on unless :func:`coupled_uniforms` through the marginals gives exactly the
+    joint sampler's own draws (the worlds below rely on it)."""
+    v = coupled_uniforms(joint, 256, sw.stream_rng(seed, "check"))
+    mine = np.column_stack([m.draw(256, rng=Given(v[:, j])) for j, m in enumerate(joint.marginals)])
+    if not np.array_equal(mine, joint.draw(256, rng=sw.stream_rng(seed, "check"))):
+        raise RuntimeError("--joint: its draws no longer follow coupled_uniforms; update it")
 
 
 def daily_demand(hours: np.ndarray, per_day: np.ndarray) -> np.ndarray:
@@ -128,19 +283,23 @@ def per_season(values: np.ndarray, per_day: np.ndarray) -> np.ndarray:
     return np.bincount(season_of_job, weights=values, minlength=per_day.shape[0])
 
 
-def simulate(art: dict[str, Any], cfg: dict[str, Any]) -> dict[str, np.ndarray]:
-    """Central run: ``n_seasons`` seasons with every input at its selected sampler."""
-    seed, n_seasons, days = int(cfg["seed"]), int(cfg["n_seasons"]), int(cfg["days"])
+def simulate(
+    art: dict[str, Any], cfg: dict[str, Any], frost: SharedFrost, n_seasons: int, stream: str
+) -> dict[str, np.ndarray]:
+    """``n_seasons`` seasons with every input at its selected sampler (streams under ``stream``)."""
+    seed, days = int(cfg["seed"]), int(cfg["days"])
 
     def rng(name: str) -> np.random.Generator:
-        return sw.stream_rng(seed, "central", name)
+        return sw.stream_rng(seed, stream, name)
 
-    per_day = draw_breaks(art["breaks"], n_seasons, cfg, rng("breaks"))
+    per_day = frost.daily_totals(n_seasons, days, rng("breaks"))
     n_jobs = int(per_day.sum())
     joint = art["joint"]
-    pair = joint.draw(n_jobs, rng=rng("repair_cost"))
-    hours = pair[:, joint.columns.index("hours")]
-    rate = pair[:, joint.columns.index("cost_per_crew_hour")]
+    v = coupled_uniforms(joint, n_jobs, rng("repair_cost"))
+    u_hours = v[:, joint.columns.index("hours")]
+    hours = joint.marginal("hours").draw(n_jobs, rng=Given(u_hours))
+    rate_u = v[:, joint.columns.index("cost_per_crew_hour")]
+    rate = joint.marginal("cost_per_crew_hour").draw(n_jobs, rng=Given(rate_u))
     # the same jobs with hours and rate drawn independently from their selected samplers
     hours_ind = art["repair"].draw(n_jobs, rng=rng("repair_hours"))
     rate_ind = art["cost"].draw(n_jobs, rng=rng("crew_hour_cost"))
@@ -154,7 +313,6 @@ def simulate(art: dict[str, Any], cfg: dict[str, Any]) -> dict[str, np.ndarray]:
     damage = np.zeros(n_jobs)
     damage[flooded] = art["damage"].draw(int(flooded.sum()), rng=rng("damage"))
 
-    demand = daily_demand(hours, per_day)
     # booster pumps, new at the season start: a failure on day d adds a repair job that day and
     # a hired stand-in pump until the new model arrives
     n_pumps = int(cfg["booster_pumps"])
@@ -162,69 +320,80 @@ def simulate(art: dict[str, Any], cfg: dict[str, Any]) -> dict[str, np.ndarray]:
     fail_day = np.floor(life / 24.0).astype(np.int64)
     failed = fail_day < days
     rows = np.broadcast_to(np.arange(n_seasons)[:, None], failed.shape)[failed]
-    np.add.at(demand, (rows, fail_day[failed]), float(cfg["pump_repair_crew_hours"]))
+    pump_demand = np.zeros((n_seasons, days))
+    np.add.at(pump_demand, (rows, fail_day[failed]), float(cfg["pump_repair_crew_hours"]))
     n_failed = int(failed.sum())
     hire = art["lead_time"].draw(n_failed, rng=rng("lead_time")) * art["hire_rate"].draw(
         n_failed, rng=rng("hire_rate")
     )
     pump_hire = np.bincount(rows, weights=hire, minlength=n_seasons)
-
-    crew = per_season(hours * rate, per_day)
     others = per_season(traffic + damage, per_day) + pump_hire
-    capacity = float(cfg["crews"]) * float(cfg["crew_hours_per_day"])
     return {
         "per_day": per_day,
-        "demand": demand,
-        "overload_days": (demand > capacity).sum(axis=1),
+        "u_hours": u_hours,
+        "rate": rate,
+        "pump_demand": pump_demand,
         "pump_failures": failed.sum(axis=1),
         "restore": hours + wait,
-        "crew": crew,
         "traffic": per_season(traffic, per_day),
         "damage": per_season(damage, per_day),
         "pump_hire": pump_hire,
-        "cost": crew + others,
+        "others": others,
         "cost_independent": per_season(hours_ind * rate_ind, per_day) + others,
+        **season_of(hours, rate, per_day, pump_demand, others, cfg),
     }
 
 
-class CommonUniforms:
-    """Uniforms for ``draw_nested``: every world gets the same inner uniforms.
+def season_of(
+    hours: np.ndarray,
+    rate: np.ndarray,
+    per_day: np.ndarray,
+    pump_demand: np.ndarray,
+    others: np.ndarray,
+    cfg: dict[str, Any],
+) -> dict[str, np.ndarray]:
+    """What the repair hours decide: daily crew-hour demand, overload days, crew and total cost."""
+    demand = daily_demand(hours, per_day) + pump_demand
+    capacity = float(cfg["crews"]) * float(cfg["crew_hours_per_day"])
+    crew = per_season(hours * rate, per_day)
+    return {
+        "demand": demand,
+        "overload_days": (demand > capacity).sum(axis=1),
+        "crew": crew,
+        "cost": crew + others,
+    }
 
-    With common random numbers each world sees the same seasons, so the spread between worlds
-    is the parameter uncertainty alone, not Monte Carlo noise. Column 0 (which world) is unused
-    with ``outer="cycle"``.
+
+def parameter_worlds(
+    art: dict[str, Any], cfg: dict[str, Any], frost: SharedFrost
+) -> dict[str, np.ndarray]:
+    """Two-level Monte Carlo: outer worlds (repair-hour replicates) x inner seasons.
+
+    Every world simulates the same inner seasons (common random numbers: the same breaks, the
+    same copula uniforms, rates and other costs); only the repair-hour sampler changes, so the
+    spread between worlds is the parameter uncertainty alone, not Monte Carlo noise. The point
+    fit runs through the same seasons, as the reference of the worlds' ratios.
     """
-
-    def __init__(self, u: np.ndarray) -> None:
-        self.u = u
-
-    def uniforms(self, shape: tuple[int, ...]) -> np.ndarray:
-        out = np.empty(shape)
-        out[:, 0] = 0.5
-        out[:, 1:] = self.u
-        return out
-
-
-def parameter_worlds(art: dict[str, Any], cfg: dict[str, Any]) -> dict[str, np.ndarray]:
-    """Two-level Monte Carlo: outer worlds (repair-hour replicates) x inner seasons."""
-    seed = int(cfg["seed"])
     n_worlds, n_inner = int(cfg["parameter_worlds"]), int(cfg["seasons_per_world"])
     ens = art["replicates"]
-    capacity = float(cfg["crews"]) * float(cfg["crew_hours_per_day"])
-    per_day = draw_breaks(art["breaks"], n_inner, cfg, sw.stream_rng(seed, "worlds", "breaks"))
-    u = sw.stream_rng(seed, "worlds", "hours").random(int(per_day.sum()))
-    # row w: the hours of every job of the inner seasons, through world w's replicate
-    hours = ens.draw_nested(n_worlds, u.size, rng=CommonUniforms(u), outer="cycle")
-    season_hours = np.empty((n_worlds, n_inner))
-    overload = np.empty((n_worlds, n_inner))
-    for w in range(n_worlds):
-        demand = daily_demand(hours[w], per_day)
-        season_hours[w] = demand.sum(axis=1)
-        overload[w] = (demand > capacity).sum(axis=1)
+    sim = simulate(art, cfg, frost, n_inner, "worlds")
+    u, per_day = sim["u_hours"], sim["per_day"]
+    samplers = [ens.replicate(w % ens.n_replicates) for w in range(n_worlds)]
+    samplers.append(ens.point if ens.point is not None else art["joint"].marginal("hours"))
+    out: dict[str, list[Any]] = {"season_crew_hours": [], "overload_days": [], "cost": []}
+    for sampler in samplers:
+        hours = sampler.draw(u.size, rng=Given(u))
+        season = season_of(hours, sim["rate"], per_day, sim["pump_demand"], sim["others"], cfg)
+        out["season_crew_hours"].append(per_season(hours, per_day))
+        out["overload_days"].append(season["overload_days"])
+        out["cost"].append(
+            [sw.mc_error(season["cost"], s).estimate for s in COST_STATISTICS.values()]
+        )
     which = np.arange(n_worlds) % ens.n_replicates
+    arrays = {k: np.asarray(v, dtype=np.float64) for k, v in out.items()}
     return {
-        "season_crew_hours": season_hours,
-        "overload_days": overload,
+        **{k: v[:-1] for k, v in arrays.items()},
+        **{f"point_{k}": v[-1] for k, v in arrays.items()},
         "repair_hours_p99": ens.replicate_quantiles(0.99)[which],
     }
 
@@ -276,19 +445,38 @@ def joint_draws_correlation(path: str, columns: tuple[str, ...]) -> float:
 # --- report ---------------------------------------------------------------------------------------
 
 
+def cost_figures(x: np.ndarray, worlds: dict[str, np.ndarray] | None = None) -> dict[str, Any]:
+    """Season cost statistics with their Monte Carlo errors and, given the worlds, the 90 %
+    interval of their parameter uncertainty.
+
+    Each world's statistic over the point fit's, on the same seasons, is how far the finite record
+    of repairs could move it; the 5 % and 95 % of those ratios times the central estimate give
+    ``parameter_interval_90``, rounded like the value.
+    """
+    out = {}
+    for j, (name, statistic) in enumerate(COST_STATISTICS.items()):
+        r = sw.mc_error(x, statistic)
+        out[name] = _figure(r.estimate, r.standard_error, r.low, r.high)
+        if worlds is not None:
+            ratios = worlds["cost"][:, j] / worlds["point_cost"][j]
+            ends = np.quantile(ratios, [0.05, 0.95]) * r.estimate
+            out[name]["parameter_interval_90"] = [_round_to(e, r.standard_error) for e in ends]
+    return out
+
+
 def summarise(
     art: dict[str, Any], files: dict[str, str], cfg: dict[str, Any]
 ) -> tuple[dict[str, Any], dict[str, np.ndarray], dict[str, np.ndarray]]:
     """Run both simulations; the risk figures (JSON-ready) and the arrays the plot needs."""
-    sim = simulate(art, cfg)
-    worlds = parameter_worlds(art, cfg)
-
-    def cost_figures(x: np.ndarray) -> dict[str, Any]:
-        out = {f"p{round(p * 100)}": figure(x, f"quantile:{p}") for p in (0.5, 0.9, 0.99)}
-        out["tail_mean_99"] = figure(x, "tail_mean:0.99")
-        return out
-
-    with_dep, without = cost_figures(sim["cost"]), cost_figures(sim["cost_independent"])
+    districts = int(cfg["districts"])
+    same_day = float(cfg["breaks_same_day_correlation"])
+    next_day = float(cfg["breaks_next_day_correlation"])
+    frost = SharedFrost(art["breaks"], districts, same_day, next_day)
+    check_coupled_uniforms(art["joint"], int(cfg["seed"]))
+    sim = simulate(art, cfg, frost, int(cfg["n_seasons"]), "central")
+    worlds = parameter_worlds(art, cfg, frost)
+    with_dep = cost_figures(sim["cost"], worlds)
+    without = cost_figures(sim["cost_independent"])
     ens = art["replicates"]
     intervals_breaks = read_intervals(files["intervals-breaks"])
     n_inner = int(cfg["seasons_per_world"])
@@ -298,9 +486,9 @@ def summarise(
         "how_to_read": (
             "value: the Monte Carlo estimate, rounded to the second digit of its standard "
             "error; mc_standard_error and mc_interval_95: the simulation's own error (more "
-            "seasons shrink it); parameter_uncertainty: the spread between plausible worlds "
-            "(more data would shrink it, more seasons would not); data_intervals: bootstrap "
-            "intervals of statistics of the records themselves"
+            "seasons shrink it); parameter_interval_90 and parameter_uncertainty: the spread "
+            "between plausible worlds (more data would shrink it, more seasons would not); "
+            "data_intervals: bootstrap intervals of statistics of the records themselves"
         ),
         "samplers": {
             name: {"method": s.method, "content_hash": s.metadata["content_hash"]}
@@ -308,8 +496,25 @@ def summarise(
         },
         "crew_hour_capacity_per_day": float(cfg["crews"]) * float(cfg["crew_hours_per_day"]),
         "breaks_per_season": figure(sim["per_day"].sum(axis=1), "mean"),
+        "breaks_dependence": {
+            "what": (
+                f"breaks of the {districts} districts drawn together: each district-day from "
+                "the selected daily_breaks sampler, coupled by a shared daily frost factor "
+                "(Gaussian copula, AR(1) from day to day) matched to the records' correlations; "
+                "errors by batches of whole seasons"
+            ),
+            "same_day_correlation": same_day,
+            "next_day_correlation": next_day,
+            "copula_same_day_correlation": round(frost.r, 3),
+            "copula_day_to_day_correlation": round(frost.phi, 3),
+            "network_breaks_per_day_sd": figure_by_season(sim["per_day"], "std"),
+            "network_breaks_per_day_p99": figure_by_season(sim["per_day"], "quantile:0.99"),
+            "network_breaks_per_day_sd_if_districts_independent": _round_sig(
+                math.sqrt(districts * float(art["breaks"].var)), 3
+            ),
+        },
         "pump_failures_per_season": figure(sim["pump_failures"], "mean"),
-        "daily_demand_p99_crew_hours": figure(sim["demand"], "quantile:0.99"),
+        "daily_demand_p99_crew_hours": figure_by_season(sim["demand"], "quantile:0.99"),
         "prob_any_overload_day": figure(sim["overload_days"], "exceedance:0"),
         "overload_days_mean": figure(sim["overload_days"], "mean"),
         "restore_hours_p95": figure(sim["restore"], "quantile:0.95"),
@@ -346,9 +551,12 @@ def summarise(
             "season_crew_hours_mean": spread(worlds["season_crew_hours"].mean(axis=1)),
             "overload_days_mean": spread(worlds["overload_days"].mean(axis=1)),
             "prob_any_overload_day": spread((worlds["overload_days"] > 0).mean(axis=1)),
+            "season_cost_eur": {
+                name: spread(worlds["cost"][:, j]) for j, name in enumerate(COST_STATISTICS)
+            },
             "mc_error_shared_by_every_world": {
-                "season_crew_hours_mean": figure(worlds["season_crew_hours"][0], "mean"),
-                "overload_days_mean": figure(worlds["overload_days"][0], "mean"),
+                "season_crew_hours_mean": figure(worlds["point_season_crew_hours"], "mean"),
+                "overload_days_mean": figure(worlds["point_overload_days"], "mean"),
             },
         },
         "data_intervals": {

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import hashlib
+import json
 import os
 import re
 import shutil
@@ -78,14 +80,62 @@ def nothing_to_do(run: Run) -> bool:
     return "Nothing to be done" in run.out
 
 
-def store_artifacts(work: Path) -> dict[str, str]:
-    """Relative path -> content hash of every sampler artifact (candidates and selections)."""
+# store folders whose files are compared between runs, and how each is read: artifacts by the
+# content hash in their metadata (it covers payload and description, not write times), Parquet
+# tables by their values, JSON documents by their parsed content
+_ARTIFACT_DIRS = ("samplers", "selected", "replicates", "joint")
+_TABLE_DIRS = ("draws", "joint_draws", "columns", "tables")
+_JSON_DIRS = ("intervals",)
+STORE_OUTPUTS = _ARTIFACT_DIRS + _TABLE_DIRS + _JSON_DIRS
+
+
+def _table_digest(path: Path) -> str:
+    """sha256 of a Parquet file's column names, types and values (not its bytes: the footer
+    records the writer's version)."""
+    import pyarrow.parquet as pq
+
+    table = pq.read_table(path)
+    h = hashlib.sha256()
+    for name, column in zip(table.column_names, table.columns, strict=True):
+        h.update(json.dumps([name, str(column.type), column.to_pylist()]).encode())
+    return f"values:{h.hexdigest()}"
+
+
+def _json_digest(path: Path) -> str:
+    """sha256 of a JSON document's canonical form (sorted keys)."""
+    doc = json.loads(path.read_text())
+    return f"json:{hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()}"
+
+
+def store_artifacts(
+    work: Path, folders: tuple[str, ...] = ("samplers", "selected")
+) -> dict[str, str]:
+    """Relative path -> digest of every file of a run's store in ``folders`` (by default the
+    sampler artifacts, candidates and selections; :data:`STORE_OUTPUTS` for every output).
+
+    Sampler artifacts (candidates, selections, replicates, joint samplers) by content hash;
+    draws, joint draws and column and table snapshots by their values; bootstrap intervals by
+    their parsed JSON. Never compared: logs and benchmarks (times), the fingerprint memo (file
+    stats), check summaries and reports (their drift section compares with whatever the store
+    selected before, so they depend on its history, not only on the run).
+    """
     import samplewright
 
+    unknown = sorted(set(folders) - set(STORE_OUTPUTS))
+    if unknown:
+        raise ValueError(f"folders: expected names from {STORE_OUTPUTS}, found {unknown}")
     out = {}
-    for sub in ("samplers", "selected"):
-        for path in sorted((work / "store" / sub).rglob("*.parquet")):
-            out[str(path.relative_to(work))] = samplewright.read_metadata(path)["content_hash"]
+    for sub in folders:
+        for path in sorted((work / "store" / sub).rglob("*")):
+            if not path.is_file() or path.name.startswith("."):
+                continue
+            rel = str(path.relative_to(work))
+            if sub in _ARTIFACT_DIRS:
+                out[rel] = samplewright.read_metadata(path)["content_hash"]
+            elif sub in _TABLE_DIRS:
+                out[rel] = _table_digest(path)
+            else:
+                out[rel] = _json_digest(path)
     return out
 
 

@@ -117,8 +117,9 @@ def test_risk_figures_carry_monte_carlo_errors_rounded_to_them(pipeline: Path) -
 
 
 def test_dependence_and_parameter_uncertainty_are_reported(pipeline: Path) -> None:
-    """The joint draws keep the data's rank correlation, dependence raises the cost tail, and
-    the replicate worlds give intervals that agree with the data's own bootstrap interval."""
+    """The joint draws keep the data's rank correlation, dependence raises the cost tail, the
+    replicate worlds give intervals that agree with the data's own bootstrap interval, and the
+    season cost figures carry those worlds' spread as a parameter interval."""
     doc = _risk(pipeline)
     repairs = pd.read_csv(pipeline / "data" / "repairs.csv")
     # source: scipy.stats.spearmanr of the data the joint sampler was fitted to
@@ -136,12 +137,61 @@ def test_dependence_and_parameter_uncertainty_are_reported(pipeline: Path) -> No
     for name in ("repair_hours_p99", "season_crew_hours_mean", "overload_days_mean"):
         lo, hi = pu[name]["interval_90"]
         assert lo < pu[name]["median"] < hi, name
+    # the season cost figures carry their parameter interval beside their Monte Carlo error
+    for name, fig in doc["season_cost_eur"].items():
+        lo, hi = fig["parameter_interval_90"]
+        assert lo < hi and lo <= fig["value"] <= hi, name
+        worlds_lo, worlds_hi = pu["season_cost_eur"][name]["interval_90"]
+        # same relative width as the worlds' own spread (rounding aside)
+        assert (hi - lo) / fig["value"] == pytest.approx(
+            (worlds_hi - worlds_lo) / pu["season_cost_eur"][name]["median"], abs=0.01
+        ), name
     # two routes to the same uncertainty: refits of replicates vs the BCa interval of the data
     (q99,) = (r for r in doc["data_intervals"]["repair_hours"] if r["statistic"] == "quantile:0.99")
     lo, hi = pu["repair_hours_p99"]["interval_90"]
     assert lo < q99["high"] and q99["low"] < hi
     # source: numpy's sample quantile (its default definition) of the same column
     assert q99["estimate"] == pytest.approx(np.quantile(repairs["hours"], 0.99), rel=0.01)
+
+
+def _daily_totals(work: Path) -> tuple[np.ndarray, np.ndarray, int]:
+    """The demo data's district-day counts, their network totals (winters x days) and the
+    number of districts."""
+    breaks = pd.read_parquet(work / "data" / "breaks.parquet")
+    totals = breaks.groupby(["winter", "day"])["breaks"].sum().unstack("day")
+    return (
+        breaks["breaks"].to_numpy(dtype=float),
+        totals.to_numpy(dtype=float),
+        int(breaks["district"].nunique()),
+    )
+
+
+def test_breaks_correlations_in_the_config_are_the_datas(pipeline: Path) -> None:
+    """The two correlations the risk step couples districts and days with are the demo data's,
+    measured as config.yaml describes."""
+    # source: the invented demo data themselves (data/breaks.parquet), not an outside reference
+    counts, totals, n = _daily_totals(pipeline)
+    same_day = (totals.var(ddof=1) / (n * counts.var(ddof=1)) - 1.0) / (n - 1)
+    next_day = np.corrcoef(totals[:, :-1].ravel(), totals[:, 1:].ravel())[0, 1]
+    season = yaml.safe_load((pipeline / "config.yaml").read_text())["season"]
+    assert season["breaks_same_day_correlation"] == pytest.approx(same_day, abs=5e-4)
+    assert season["breaks_next_day_correlation"] == pytest.approx(next_day, abs=5e-4)
+
+
+def test_simulated_daily_totals_have_the_datas_variance(pipeline: Path) -> None:
+    """The simulated breaks per day over the network vary as much as the data's daily totals
+    (within 5 %), about three times what independent districts give, with a P99 near theirs."""
+    doc = _risk(pipeline)["breaks_dependence"]
+    _, totals, _ = _daily_totals(pipeline)
+    # source: the invented demo data themselves (variance 52.5, P99 37 in data/breaks.parquet)
+    data_var, data_p99 = totals.var(ddof=1), np.quantile(totals, 0.99)
+    sim = doc["network_breaks_per_day_sd"]
+    # 5 %: the fitted count distribution's variance is ~1 % off the data's, the simulation's
+    # error ~0.5 %; drawing districts independently is ~70 % off (common practice, no source)
+    assert sim["value"] ** 2 == pytest.approx(data_var, rel=0.05)
+    assert doc["network_breaks_per_day_sd_if_districts_independent"] ** 2 < 0.5 * data_var
+    # a Gaussian copula's tail is a little lighter than the data's lognormal frost factor
+    assert 0.85 * data_p99 <= doc["network_breaks_per_day_p99"]["value"] <= 1.1 * data_p99
 
 
 def test_block_bootstrap_widens_the_interval_as_batch_means_predict(pipeline: Path) -> None:

@@ -17,10 +17,17 @@ from pathlib import Path
 import pytest
 import yaml
 
-from .conftest import BASE_ARGS, BIN, SNAKEMAKE, copy_example, store_artifacts
+from .conftest import (
+    BASE_ARGS,
+    BIN,
+    SNAKEMAKE,
+    STORE_OUTPUTS,
+    copy_example,
+    store_artifacts,
+)
 
 pytestmark = [pytest.mark.pipeline, pytest.mark.slurm, pytest.mark.slow]
-DATA_FILES = ("repairs.csv", "breaks.parquet", "pumps.csv", "spare_part_wait.yaml")
+DATA_FILES = ("repairs.csv", "breaks.parquet", "pumps.csv", "claims.csv", "spare_part_wait.yaml")
 
 
 def _cluster_ready() -> bool:
@@ -31,7 +38,9 @@ def _cluster_ready() -> bool:
     return probe.returncode == 0 and any(s in ("idle", "mixed", "allocated") for s in states)
 
 
-@pytest.fixture(scope="module")
+# session scope, like the `pipeline` fixture it comes before: pytest sets up wider-scoped fixtures
+# first, so a module-scoped check ran the whole local pipeline before skipping
+@pytest.fixture(scope="session")
 def cluster() -> None:
     if not _cluster_ready():
         if os.environ.get("SAMPLEWRIGHT_REQUIRE_SLURM") == "1":
@@ -62,8 +71,9 @@ def _slurm_snakemake(work: Path, *args: str) -> subprocess.CompletedProcess[str]
 
 
 def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path, tmp_path: Path) -> None:
-    """Every job goes through Slurm (accounting shows it), artifacts and risk figures equal the
-    local run's, and a touch of the data afterwards plans no job."""
+    """Every job goes through Slurm (accounting shows it), every store output (artifacts,
+    replicates, joint samplers, draws, snapshots, intervals) and the risk figures equal the local
+    run's, and a touch of the data afterwards plans no job."""
     work = copy_example(tmp_path / "on_slurm")
     proc = _slurm_snakemake(work)
     out = proc.stdout + proc.stderr
@@ -83,16 +93,29 @@ def test_pipeline_on_slurm_matches_local_run(cluster: None, pipeline: Path, tmp_
     assert all(r[1] == "COMPLETED" and r[2] == "0:0" for r in rows), rows
     assert {r[3] for r in rows} == {"samplewright"}
 
-    # The local store may hold more (other tests change data in it); every artifact of the
-    # cluster run must be there under the same path with the same content hash.
-    ours = store_artifacts(work)
-    cfg = yaml.safe_load((work / "config.yaml").read_text())["samplewright"]["datasets"]
-    assert len(ours) == sum(len(ds.get("methods", ["knots"])) for ds in cfg.values()) + len(cfg)
-    assert ours.items() <= store_artifacts(pipeline).items()
+    # The local store may hold more (other tests change data in it); every output of the
+    # cluster run must be there under the same path with the same content.
+    ours = store_artifacts(work, STORE_OUTPUTS)
+    cfg = yaml.safe_load((work / "config.yaml").read_text())["samplewright"]
+    datasets, joint = cfg["datasets"], cfg.get("joint", {})
+    folders = {rel.split("/")[1] for rel in ours}
+    n_fits = sum(len(ds.get("methods", ["knots"])) for ds in datasets.values())
+    assert sum(rel.split("/")[1] in ("samplers", "selected") for rel in ours) == n_fits + len(
+        datasets
+    )
+    assert set(STORE_OUTPUTS) <= folders, folders
+    assert sum(rel.split("/")[1] == "joint" for rel in ours) == len(joint)
+    with_draws = [ds for ds in datasets.values() if ds.get("draws", cfg["draws"]) > 0]
+    assert sum(rel.split("/")[1] == "draws" for rel in ours) == len(with_draws)
+    local = store_artifacts(pipeline, STORE_OUTPUTS)
+    differ = {
+        rel: (digest, local.get(rel)) for rel, digest in ours.items() if local.get(rel) != digest
+    }
+    assert not differ, differ
     risk = sorted((work / "results").glob("*/season_risk.json"))
     assert len(risk) == 1
-    local = pipeline / risk[0].relative_to(work)
-    assert json.loads(risk[0].read_text()) == json.loads(local.read_text())
+    local_risk = pipeline / risk[0].relative_to(work)
+    assert json.loads(risk[0].read_text()) == json.loads(local_risk.read_text())
 
     for f in DATA_FILES:
         os.utime(work / "data" / f)

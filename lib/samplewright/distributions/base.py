@@ -11,6 +11,16 @@ uniforms; with anything seed-like it turns it into a numpy Generator and calls t
 ``gen.random(size)``; a kind overrides it only where its own generator is faster (an index draw
 for empirical samplers, numpy's generators for parametric families).
 
+``draw(size, rng=..., sequence=...)`` with ``sequence`` ``"sobol"``, ``"halton"`` or
+``"latin_hypercube"`` takes its uniforms from
+:func:`~samplewright.core.uniforms.draw_uniforms` (scrambled from the Generator, so the same
+stream gives the same points; a Sobol' size that is not a power of two warns) and returns their
+``quantile``, for every kind, discrete ones and mixtures included: the native path, which
+consumes the stream in its own way, is bypassed. ``sequence="random"`` (the default) is the
+native path, so its draws are what they always were. A kind whose ``quantile`` raises
+NotImplementedError is refused with a MethodError naming it. ``scipy.stats.qmc`` is imported only
+when a quasi-random sequence is asked for, so loading and plain draws stay light.
+
 Every sampler also declares what a fit recorded about it (``diagnostics``) and, once loaded from
 an artifact, the artifact's metadata (``metadata``).
 
@@ -23,11 +33,15 @@ from __future__ import annotations
 
 from abc import ABC, abstractmethod
 from collections.abc import Mapping
-from typing import Any, ClassVar, final
+from typing import TYPE_CHECKING, Any, ClassVar, final
 
 import numpy as np
 
+from samplewright.core.errors import MethodError
 from samplewright.core.randomness import SeedLike, UniformSource, make_rng
+
+if TYPE_CHECKING:  # pragma: no cover - core.uniforms imports scipy.stats.qmc
+    from samplewright.core.uniforms import UniformSequence
 
 __all__ = ["SAMPLER_KINDS", "Sampler", "Size", "check_probabilities", "json_float"]
 
@@ -119,9 +133,27 @@ class Sampler(ABC):
         return float(np.sqrt(self.var))
 
     @final
-    def draw(self, size: Size, rng: SeedLike | UniformSource = None) -> np.ndarray:
+    def draw(
+        self,
+        size: Size,
+        rng: SeedLike | UniformSource = None,
+        *,
+        sequence: UniformSequence = "random",
+    ) -> np.ndarray:
         """``size`` draws: from ``rng`` (None, an int, a SeedSequence or a Generator) by the
         kind's native path, or ``quantile`` of the uniforms of a :class:`UniformSource`.
+
+        Parameters
+        ----------
+        size : int or tuple of int
+            Number of draws, or their shape.
+        rng : None, int, SeedSequence, Generator or UniformSource
+            Source of randomness (of the scrambling, for a quasi-random ``sequence``), or a
+            source of ready uniforms (then ``sequence`` must be ``"random"``).
+        sequence : {"random", "sobol", "halton", "latin_hypercube"}
+            ``"random"``: the kind's native path (the draws it always gave). Otherwise
+            ``quantile`` of that scrambled quasi-random sequence's points, from
+            :func:`samplewright.core.uniforms.draw_uniforms`.
 
         >>> from samplewright.distributions.piecewise import from_knots
         >>> class Mid:
@@ -129,7 +161,11 @@ class Sampler(ABC):
         ...         return np.full(shape, 0.5)
         >>> from_knots([0.0, 4.0], [0.0, 1.0]).draw(2, rng=Mid()).tolist()
         [2.0, 2.0]
+        >>> from_knots([0.0, 4.0], [0.0, 1.0]).draw(4, rng=7, sequence="sobol").round(2).tolist()
+        [1.66, 2.58, 3.48, 0.28]
         """
+        if sequence != "random":
+            return self._draw_sequence(size, rng, sequence)
         if isinstance(rng, UniformSource):
             shape = (size,) if isinstance(size, int | np.integer) else tuple(size)
             u = np.asarray(rng.uniforms(shape), dtype=np.float64)
@@ -137,6 +173,34 @@ class Sampler(ABC):
                 raise ValueError(f"rng: the uniform source gave shape {u.shape}, expected {shape}")
             return self._inverse_transform(u)
         return self._draw_native(size, make_rng(rng))
+
+    @final
+    def _draw_sequence(
+        self, size: Size, rng: SeedLike | UniformSource, sequence: UniformSequence
+    ) -> np.ndarray:
+        """``quantile`` of quasi-random uniforms (``draw`` with a sequence other than random)."""
+        from samplewright.core.uniforms import SEQUENCES, draw_uniforms
+
+        if sequence not in SEQUENCES:
+            raise MethodError(
+                f"sequence: expected one of {', '.join(SEQUENCES)}, found {sequence!r}"
+            )
+        if isinstance(rng, UniformSource):
+            raise MethodError(
+                f"sequence: {sequence!r} needs a seed-like rng to scramble it, found a uniform "
+                f"source ({type(rng).__name__}), which brings its own uniforms"
+            )
+        gen = make_rng(rng)
+        # draw_uniforms checks size; a Sobol' size that is not a power of two warns there
+        u = draw_uniforms(size, rng=gen, sequence=sequence)
+        try:
+            return self._inverse_transform(u)
+        except NotImplementedError:
+            kind = getattr(self, "kind", type(self).__name__)
+            raise MethodError(
+                f"sequence: sampler kind {kind!r} has no quantile function, so it cannot "
+                f"draw from {sequence!r}; use sequence='random'"
+            ) from None
 
     def _draw_native(self, size: Size, gen: np.random.Generator) -> np.ndarray:
         """Draws from a Generator; the default is the inverse transform of ``gen.random``.
