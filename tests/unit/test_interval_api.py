@@ -19,11 +19,14 @@ from samplewright.fitting.incomplete_fast import FAST
 from samplewright.fitting.interval_api import (
     INCOMPLETE_FAMILIES,
     INCOMPLETE_METHODS,
+    RANKING_INCOMPLETE,
+    check_product_limit_rows,
     fit_interval,
     fit_sample,
     fit_truncated,
     incomplete_candidates,
     incomplete_fixed,
+    min_rows,
     rank_incomplete,
 )
 from samplewright.fitting.mle import fit_family
@@ -217,6 +220,39 @@ def test_every_incomplete_family_is_a_continuous_package_family() -> None:
     assert "lomax" not in INCOMPLETE_FAMILIES and "beta" not in INCOMPLETE_FAMILIES
     assert set(INCOMPLETE_FAMILIES) >= {"lognormal", "gamma", "weibull", "generalized_pareto"}
     assert INCOMPLETE_METHODS[-2:] == ("kaplan_meier", "turnbull")
+    assert RANKING_INCOMPLETE == ("auto",) and "auto" in INCOMPLETE_METHODS
+
+
+def test_auto_is_reached_through_the_catalog_on_truncated_and_interval_rows() -> None:
+    """fit_truncated / fit_interval with 'auto' return the ranked winner with the incomplete
+    section of its fit (rows of weight 0 counted), not a refusal."""
+    x, c, d = _losses(n=80)
+    s = fit_truncated(x, "auto", censored=c, truncation=d, candidates=["lognormal", "weibull"],
+                      n_resamples=0)  # fmt: skip
+    assert s.method == "auto" and s.diagnostics["auto"]["chosen"] == s.family.name  # type: ignore[attr-defined]
+    assert s.diagnostics["incomplete"]["n_truncated"] == int(np.sum(d > 0))
+    direct = fit_truncated(x, s.family.name, censored=c, truncation=d)  # type: ignore[attr-defined]
+    assert s.params == pytest.approx(direct.params, rel=1e-9)
+    lo, hi = np.array([0.0, 10.0, 20.0, 40.0]), np.array([10.0, 20.0, 40.0, INF])
+    g = fit_interval(lo, hi, "auto", weights=[12, 9, 0, 3], candidates=["exponential"],
+                     n_resamples=0)  # fmt: skip
+    assert g.diagnostics["incomplete"]["n_dropped"] == 1
+    with pytest.raises(MethodError, match="unknown option 'tail' for auto"):
+        fit_interval(lo, hi, "auto", tail="at_last")
+
+
+def test_minimum_rows_and_product_limit_rows_are_public_rules() -> None:
+    """min_rows reads the catalog (1 for the nonparametric methods); kaplan_meier's row rule
+    refuses interval rows by the row."""
+    assert (min_rows("gamma"), min_rows("gev"), min_rows("kaplan_meier"), min_rows("auto")) == (
+        2,
+        3,
+        1,
+        1,
+    )
+    check_product_limit_rows(incomplete_sample([1.0, 2.0], [1.0, INF]))
+    with pytest.raises(MethodError, match=r"row 1 is \(2.0, 3.0\]"):
+        check_product_limit_rows(incomplete_sample([1.0, 2.0], [1.0, 3.0]))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -327,6 +363,9 @@ def test_rank_incomplete_orders_by_aic_and_lists_failures_last() -> None:
     assert by_bic[0].family == "exponential"  # the data are exactly exponential
     shifted = rank_incomplete(s, ["exponential"], options={"exponential": {"loc": 100.0}})
     assert shifted[0].params["loc"] == 100.0 and shifted[0].mass_above_truncation == 1.0
+    # each fit carries what a family fit records about the rows; a failed one nothing
+    assert ok[0].diagnostics["n_exact"] == N_EXCESS and ok[0].diagnostics["n_truncated"] == N_EXCESS
+    assert ranked[-1].diagnostics == {}
 
 
 @pytest.mark.parametrize(

@@ -41,6 +41,12 @@ Families fitted by a general optimiser (loglogistic, gev, ...) can be listed in 
 they make the bootstrap noticeably slower on large samples. A density and a probability mass are
 never ranked together (:mod:`samplewright.check.comparable`).
 
+Composites (:mod:`samplewright.check.auto_composites`): without ``candidates``, zero-inflated
+counts and finite mixtures join the ranking when the data call for them, and measurements with
+an atom at 0 are answered by a hurdle whose continuous part is ``auto``'s answer on the other
+values. Censored, truncated and interval rows are ranked by their own likelihood
+(:mod:`samplewright.check.auto_incomplete`).
+
 Recorded values: when the data lie on a grid (:mod:`samplewright.check.resolution`), the
 bootstrap replicates of continuous candidates are rounded to it; when the grid makes ties
 (coarse), a ``recording_resolution`` warning is recorded.
@@ -66,6 +72,7 @@ from samplewright.check.resolution import recording_resolution
 from samplewright.core.checks import CheckedSample
 from samplewright.core.errors import MethodError
 from samplewright.core.randomness import SeedLike, make_rng
+from samplewright.distributions.base import Sampler
 from samplewright.distributions.families import FAMILIES, get_family
 from samplewright.distributions.parametric import ParametricSampler
 from samplewright.distributions.steps import step_index
@@ -260,15 +267,27 @@ def _row(rank: int, c: CandidateResult, warnings: list[dict[str, str]]) -> dict[
 
 def fit_sample(
     sample: CheckedSample, method: str = "auto", *, rng: SeedLike = None, **options: Any
-) -> ParametricSampler:
+) -> Sampler:
     """Catalog fitter of ``auto``: fit every candidate, rank them, return the winner carrying
     the whole ranking in its diagnostics (``rng``: see the module docstring)."""
+    if sample.any_censored:  # ranked by the incomplete-data likelihood
+        from samplewright.check.auto_incomplete import fit_censored
+
+        return fit_censored(sample, method, rng=rng, **options)
     x, w = sample.values, sample.weights
     given, criterion, n_resamples = _check_options(options, x)
     integers = options.get("integers", "detect")
     reading, share = read_integers(x, w, integers)
     candidates = given or list(default_candidates(x, w, integers=integers))
     gen, seed, seed_source = _randomness(options, rng, x, w)
+    from samplewright.check.auto_composites import add_composites, point_mass_answer
+
+    held = point_mass_answer(
+        sample, options, reading=reading, rng=gen, seed=seed, seed_source=seed_source,
+        refit=fit_sample,
+    )  # fmt: skip
+    if held is not None:  # an atom at 0: the hurdle (module docstring, composites)
+        return held
     grid = recording_resolution(x, w)
     ranked = rank_candidates(
         x,
@@ -318,7 +337,7 @@ def fit_sample(
     }
     if discrete:
         diagnostics.update(count_diagnostics(x, w))
-    return ParametricSampler(
+    sampler = ParametricSampler(
         best.family,
         dict(best.params),
         loglik=best.loglik,
@@ -327,11 +346,10 @@ def fit_sample(
         method="auto",
         diagnostics=diagnostics,
     )
+    return add_composites(sample, sampler, options, rng=gen)  # mixtures, zero inflation
 
 
-def fit_auto(
-    values: Any, *, weights: Any = None, rng: SeedLike = None, **options: Any
-) -> ParametricSampler:
+def fit_auto(values: Any, *, weights: Any = None, rng: SeedLike = None, **options: Any) -> Sampler:
     """``fit(values, "auto", ...)`` with the bootstrap's randomness from ``rng``.
 
     ``rng`` is a Generator, a SeedSequence or an int (see

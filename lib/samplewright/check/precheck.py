@@ -15,7 +15,20 @@ inside a job with the reason only in a log file. It checks what ``fit`` refuses 
   a positive family;
 * every value censored;
 * values that are all equal, for the continuous families (no spread to estimate a scale);
-* counts that are not over-dispersed (variance <= mean) for the negative binomial.
+* counts that are not over-dispersed (variance <= mean) for the negative binomial;
+* ``spliced`` with a given ``threshold`` (or ``threshold_quantile``) leaving fewer than
+  :data:`~samplewright.fitting.spliced.MIN_EXCEEDANCES` values above it, or none at or below;
+* ``hurdle``: no value other than ``at``, fewer other values than its ``body`` family needs, or
+  other values its body cannot fit (the same checks, on them); ``zero_inflated`` with every
+  count 0.
+
+:func:`precheck_rows` does the same for truncated, censored and interval rows (what
+``fit(..., truncation=...)`` and ``fit_interval`` take): the rows as the fitters build them,
+fewer rows than the method needs, rows ``kaplan_meier`` cannot take, and for a family the checks
+the incomplete-data fit makes before it optimises (fixed parameters, exact values and upper ends
+inside the support, rows carrying information; :mod:`samplewright.fitting.incomplete_checks`);
+``auto`` is refused only when none of its candidates passes (:func:`precheck` hands ``auto``'s
+right-censored values to it too).
 
 It never refuses what ``fit`` accepts (the tests compare the two over a grid of methods and
 data), and it does not promise that a fit it lets through succeeds: an optimiser can still
@@ -31,7 +44,7 @@ import numpy as np
 
 from samplewright.fitting.catalog import CATALOG
 
-__all__ = ["POSITIVE_FAMILIES", "precheck"]
+__all__ = ["POSITIVE_FAMILIES", "precheck", "precheck_rows"]
 
 # positive families with a location: True when values must exceed it, False when they may equal it
 POSITIVE_FAMILIES: dict[str, bool] = {
@@ -116,6 +129,56 @@ def _support_problem(
     return None
 
 
+def _spliced_problem(x: np.ndarray, w: np.ndarray | None, options: Mapping[str, Any]) -> str | None:
+    """Too few exceedances above a given threshold (the rule of ``spliced``'s fitter)."""
+    if "threshold" in options and "threshold_quantile" in options:
+        return None  # the fit names the conflict
+    if "threshold" in options:
+        u, key = _number(options, "threshold", 0.0), "threshold"
+    elif "threshold_quantile" in options:
+        q = _number(options, "threshold_quantile", 0.5)
+        if q is None or not 0.0 < q < 1.0:
+            return None
+        from samplewright.fitting.spliced import _lower_quantile
+
+        u, key = float(_lower_quantile(x, w, q)), "threshold_quantile"
+    else:
+        return None  # the threshold is chosen from the data
+    if u is None:
+        return None
+    from samplewright.fitting.spliced import MIN_EXCEEDANCES
+
+    n_exc = int(np.count_nonzero(x > u))
+    if n_exc < MIN_EXCEEDANCES:
+        return (
+            f"spliced needs at least {MIN_EXCEEDANCES} values above its threshold ({key}: "
+            f"{u:g}), found {n_exc}"
+        )
+    if n_exc == x.size:
+        return f"spliced needs a value at or below its threshold ({key}: {u:g}), found none"
+    return None
+
+
+def _hurdle_problem(x: np.ndarray, w: np.ndarray | None, options: Mapping[str, Any]) -> str | None:
+    """The hurdle's other values: enough of them, and fit for its body (the same checks)."""
+    at = _number(options, "at", 0.0)
+    body = options.get("body", "lognormal")
+    spec = CATALOG.get(body) if isinstance(body, str) else None
+    if at is None or spec is None or spec.group != "family" or spec.counts:
+        return None  # the fit names a bad option
+    rest = x != at
+    n_rest = int(np.count_nonzero(rest))
+    if n_rest == 0:
+        return f"hurdle: every value equals at={at:g}; a continuous part needs other values"
+    if n_rest < spec.min_obs:
+        return (
+            f"hurdle with body {body!r} needs at least {spec.min_obs} values other than "
+            f"at={at:g}, found {n_rest}"
+        )
+    reason = precheck(x[rest], body, {}, weights=None if w is None else w[rest])
+    return None if reason is None else f"hurdle body {body!r}: {reason}"
+
+
 def precheck(
     values: Any,
     method: str,
@@ -174,10 +237,18 @@ def precheck(
         return f"{method}: every value is censored; at least one must be observed"
     if w is not None and not spec.weights:
         return f"{method} does not take weights; use 'empirical'"
+    if spec.incomplete is not None and c is not None and c.shape == x.shape and c.any():
+        return precheck_rows(method, opts, values=x, censored=c, weights=w)  # ranked as rows
     observed = x if c is None or c.shape != x.shape else x[~c]
     problem = _support_problem(method, x, observed, opts)
     if problem is not None:
         return problem
+    if method == "spliced":
+        return _spliced_problem(x, w if w is not None and w.shape == x.shape else None, opts)
+    if method == "hurdle":
+        return _hurdle_problem(x, w if w is not None and w.shape == x.shape else None, opts)
+    if method == "zero_inflated" and x.size and not np.any(x > 0):
+        return "zero_inflated: every count is 0; a zero-inflated model needs positive counts"
     if method in _SPREAD_METHODS and x.size and float(np.min(x)) == float(np.max(x)):
         return f"{method} cannot be fitted: all {x.size} values equal {float(x[0])!r}"
     if method == "negative_binomial" and x.size > 1:
@@ -189,4 +260,113 @@ def precheck(
                 f"negative_binomial needs over-dispersed counts (variance > mean); found "
                 f"variance {var:.4g} <= mean {mean:.4g}: use poisson"
             )
+    return None
+
+
+# ---------------------------------------------------------------------------------------------
+# truncated, censored and interval rows
+
+
+def _rows(values: Any, censored: Any, lower: Any, upper: Any, truncation: Any, weights: Any) -> Any:
+    """The rows as the fitters build them (rows of weight 0 dropped first)."""
+    from samplewright.fitting.incomplete_sample import incomplete_from_flags, incomplete_sample
+
+    w = None if weights is None else np.asarray(weights, dtype=np.float64).ravel()
+    keep = None if w is None else w > 0
+    t = truncation
+    if keep is not None and t is not None and np.ndim(t) == 1 and np.shape(t) == keep.shape:
+        t = np.asarray(t, dtype=np.float64)[keep]
+    kept_w = None if w is None or keep is None else w[keep]
+
+    def pick(a: Any) -> np.ndarray:
+        arr = np.asarray(a, dtype=np.float64).ravel()
+        return arr if keep is None or arr.shape != keep.shape else arr[keep]
+
+    if lower is not None or upper is not None:
+        return incomplete_sample(pick(lower), pick(upper), truncation=t, weights=kept_w)
+    x = pick(values)
+    flags = np.zeros(x.size, bool) if censored is None else pick(censored).astype(bool)
+    return incomplete_from_flags(x, flags, truncation=t, weights=kept_w)
+
+
+def _family_rows(rows: Any, family: str, options: Mapping[str, Any]) -> str | None:
+    """What the incomplete-data fit of ``family`` checks before it optimises."""
+    from samplewright.core.errors import MethodError
+    from samplewright.fitting.incomplete_checks import (
+        check_information,
+        check_support,
+        settings,
+        spec_for,
+    )
+    from samplewright.fitting.incomplete_likelihood import row_layout
+    from samplewright.fitting.interval_api import incomplete_fixed
+
+    try:
+        spec = spec_for(family)
+        fix = settings(spec, family, rows, incomplete_fixed(family, options))
+        floor = spec.floor(fix)
+        check_support(rows, family, floor, spec.closed_floor)
+        if any(k not in fix for k in spec.estimated):
+            check_information(row_layout(rows, floor), spec, family, floor)
+    except MethodError as exc:
+        return str(exc)
+    return None
+
+
+def precheck_rows(
+    method: str,
+    options: Mapping[str, Any] | None = None,
+    *,
+    values: Any = None,
+    censored: Any = None,
+    lower: Any = None,
+    upper: Any = None,
+    truncation: Any = None,
+    weights: Any = None,
+) -> str | None:
+    """Why ``method`` cannot fit truncated, censored or interval rows, or None (module
+    docstring). Rows are ``values`` with ``censored`` flags, or ``lower``/``upper`` ends; with
+    ``truncation`` (one number or one per row) and ``weights``.
+
+    >>> precheck_rows("lognormal", lower=[0.0, 2.0], upper=[0.0, 3.0])
+    'lognormal needs every exact value > 0.0 (its lower end); found 0.0 at row 0 (1 rows in all)'
+    >>> precheck_rows("kaplan_meier", lower=[1.0, 2.0], upper=[1.5, 2.0]) is not None
+    True
+    >>> precheck_rows("auto", values=[1.0, 2.0, 5.0], truncation=0.5) is None
+    True
+    """
+    from samplewright.core.errors import SamplewrightError
+    from samplewright.fitting.interval_api import (
+        INCOMPLETE_FAMILIES,
+        INCOMPLETE_METHODS,
+        NONPARAMETRIC_INCOMPLETE,
+        check_product_limit_rows,
+        min_rows,
+    )
+
+    if method not in INCOMPLETE_METHODS:
+        return None  # the configuration refuses it
+    opts = dict(options or {})
+    try:
+        rows = _rows(values, censored, lower, upper, truncation, weights)
+        need = min_rows(method)
+        if rows.n_rows < need:
+            plural = "s" if need != 1 else ""
+            return f"{method} needs at least {need} row{plural}, found {rows.n_rows}"
+        if method == "kaplan_meier":
+            check_product_limit_rows(rows)
+    except SamplewrightError as exc:
+        return str(exc)
+    if method in NONPARAMETRIC_INCOMPLETE:
+        return None
+    if method != "auto":
+        return _family_rows(rows, method, opts)
+    from samplewright.check.auto_incomplete import default_candidates_rows
+
+    given = opts.get("candidates")
+    names = list(given) if isinstance(given, list | tuple) else default_candidates_rows(rows)
+    reasons = [(n, _family_rows(rows, n, {})) for n in names if n in INCOMPLETE_FAMILIES]
+    if reasons and all(r is not None for _, r in reasons):
+        first, why = reasons[0]
+        return f"auto: none of its candidates can fit these rows (first, {first}: {why})"
     return None

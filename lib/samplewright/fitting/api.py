@@ -8,6 +8,11 @@ names. Methods: ``empirical`` and ``interpolated`` (:mod:`.nonparametric`), ever
 family (:mod:`.mle`), ``spliced``, ``smoothed``, ``kaplan_meier``, ``empirical_pmf`` and
 ``auto`` (see :func:`known_methods` and each module).
 
+Incomplete data: with ``truncation`` the rows go to :func:`~.interval_api.fit_truncated`, which
+reaches a method that ranks candidates on them (``auto``) through the ``incomplete`` fitter its
+catalog entry names; right-censored values without truncation reach the method's own fitter
+(``auto`` hands them to the same incomplete-data ranking).
+
 User-drawn CDFs are not fitted: see :func:`samplewright.distributions.piecewise.from_knots` and
 :func:`read_knots`.
 """

@@ -3,17 +3,21 @@
 For each method the catalog says where its fitter lives (loaded on first use), which options it
 takes (with a one-line help and the JSON types and words each accepts), how many values it needs,
 whether it handles right-censored values and weights, which sampler kind (payload layout) it
-returns, and which diagnostics ``fit`` adds. :data:`KINDS` names the class that rebuilds each kind
-from an artifact. Everything else reads these tables: ``fit`` dispatches through them, the
-fitters and the family fits accept exactly the options listed, planning validates a workflow's
-methods and options against them, and the command-line help and config schema are made from
-them. Nothing here imports numpy or scipy, so planning (every Snakemake parse, again in each
-cluster job) stays cheap.
+returns, which diagnostics ``fit`` adds, and (``incomplete``) where the fitter of a method that
+ranks candidates lives for truncated, censored and interval rows. :data:`KINDS` names the class
+that rebuilds each kind from an artifact. Everything else reads these tables: ``fit`` dispatches
+through them, the fitters and the family fits accept exactly the options listed, planning
+validates a workflow's methods and options against them, and the command-line help and config
+schema are made from them. Nothing here imports numpy or scipy, so planning (every Snakemake
+parse, again in each cluster job) stays cheap.
 
 A fitter named here is called as ``fitter(sample, method, **options)`` with a
 :class:`~samplewright.core.checks.CheckedSample` and returns a
 :class:`~samplewright.distributions.base.Sampler`; a diagnostics hook as
-``hook(values, weights)``, returning sections merged into the sampler's ``diagnostics``.
+``hook(values, weights)``, returning sections merged into the sampler's ``diagnostics``; an
+``incomplete`` fitter as ``fitter(rows, method, **options)`` with the checked rows
+(:class:`~samplewright.fitting.incomplete_sample.IncompleteSample`) of right-censored, truncated
+or interval data, returning a sampler whose ``diagnostics["incomplete"]`` describes the rows.
 """
 
 from __future__ import annotations
@@ -119,6 +123,7 @@ class MethodSpec:
     censoring: bool = False
     weights: bool = True
     diagnostics: str | None = None
+    incomplete: str | None = None
 
     @property
     def option_names(self) -> frozenset[str]:
@@ -341,7 +346,9 @@ _METHODS = (
     MethodSpec(
         "auto",
         "extension",
-        "the candidate family with the lowest AIC (or BIC), with goodness-of-fit p-values",
+        "the candidate family with the lowest AIC (or BIC), with goodness-of-fit p-values; "
+        "mixtures, zero-inflated counts and point masses join when the data call for them; "
+        "censored, truncated and interval rows ranked by their own likelihood",
         "samplewright.check.auto:fit_sample",
         "parametric",
         1,
@@ -350,7 +357,8 @@ _METHODS = (
             OptionSpec("criterion", "'aic' (default) or 'bic'", ("string",), CRITERIA),
             OptionSpec(
                 "n_resamples",
-                "bootstrap replicates per candidate, 0 for none (default 99)",
+                "bootstrap replicates per candidate (on censored, truncated or interval data: of "
+                "the chosen family only), 0 for none (default 99)",
                 ("integer",),
             ),
             OptionSpec(
@@ -367,6 +375,8 @@ _METHODS = (
                 INTEGER_READINGS,
             ),
         ),
+        censoring=True,
+        incomplete="samplewright.check.auto_incomplete:fit_rows",
     ),
     MethodSpec(
         "mixture",

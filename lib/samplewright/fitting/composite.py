@@ -25,7 +25,8 @@ Frequency weights behave exactly like repeated rows everywhere.
 When ``auto`` should consider them (:func:`composite_candidates`, reasons in
 :func:`screen_composites`), in the order listed, with the constants below:
 
-1. Counts (every value a non-negative integer, as ``auto`` classifies data): ``zero_inflated``
+1. Counts (every value a non-negative integer; a caller that reads whole numbers its own way,
+   as ``auto`` does, says so with ``counts``): ``zero_inflated``
    when there are zeros and positive counts and van den Broek's (1995, Biometrics 51(2)) score
    test of zero inflation against the fitted Poisson rejects one-sided at
    :data:`ZERO_INFLATION_LEVEL` (0.01). Over-dispersed counts also make it reject; the
@@ -34,9 +35,13 @@ When ``auto`` should consider them (:func:`composite_candidates`, reasons in
    at least :data:`MIN_BODY` (10) values are not 0 and all of them are > 0 (so the default
    lognormal body applies; name ``hurdle`` with ``body="normal"`` yourself for signed data).
 3. Otherwise (no such atom), ``mixture`` when at least :data:`MIN_MIXTURE_VALUES` (20) distinct
-   values exist and a two-component mixture of the default family (lognormal when every value
-   is > 0, else normal) improves BIC over one component by more than :data:`MIXTURE_BIC_GAIN`
-   (10, "very strong" evidence on the scale of Kass & Raftery 1995). The screen fits the table of
+   values exist and a two-component mixture of the family (``mixture_family``; default lognormal
+   when every value is > 0, else normal) improves BIC over one component, less ``bic_offset``,
+   by more than :data:`MIXTURE_BIC_GAIN` (10, "very strong" evidence on the scale of Kass &
+   Raftery 1995). A caller that fitted other single families passes how much worse, in BIC, the
+   mixture family's own fit is than the best of them as ``bic_offset``, so the gain is over the
+   best single family (``auto`` does: a mixture joins only when no single family it fitted
+   explains the data as well). The screen fits the table of
    distinct values and their weights; beyond :data:`SKETCH_SIZE` (2,000) distinct values it fits
    their weighted quantiles at 2,000 equally spaced levels, each carrying 1/2,000 of the weight,
    with a looser EM tolerance (1e-7, 300 steps, 2 starts, seed 0): a lower bound on the gain.
@@ -80,6 +85,7 @@ __all__ = [
     "fit_mixture_sample",
     "fit_zero_inflated_sample",
     "screen_composites",
+    "screen_point_mass",
 ]
 
 COMPOSITE_METHODS = ("mixture", "hurdle", "zero_inflated")
@@ -333,7 +339,8 @@ class CompositeScreenResult:
     mixture_family : str or None
         Family of the mixture screen; None when it did not run.
     bic_gain : float or None
-        BIC of one component minus BIC of two (> 0 favours two); None when it did not run.
+        BIC of one component minus BIC of two, less ``bic_offset`` (> 0 favours two); None
+        when it did not run.
     """
 
     candidates: tuple[str, ...]
@@ -373,8 +380,61 @@ def _table(x: np.ndarray, w: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return values[idx], np.full(SKETCH_SIZE, total / SKETCH_SIZE)
 
 
-def screen_composites(x: Any, weights: Any = None) -> CompositeScreenResult:
+def _whole(v: np.ndarray) -> bool:
+    return bool(np.all(v >= 0) and np.all(v == np.round(v)))
+
+
+def _point_mass_step(
+    v: np.ndarray, w: np.ndarray, counts: bool | None
+) -> tuple[CompositeScreenResult, bool]:
+    """Steps 1 and 2 of the rule: their result, and whether step 3 (mixtures) is still open."""
+    total = float(w.sum())
+    zero = v == 0
+    share = float(w[zero].sum()) / total
+    n_nonzero = int(np.count_nonzero(~zero))
+    whole = _whole(v)
+    as_counts = whole if counts is None else bool(counts) and whole
+    if as_counts:
+        if share == 0.0 or n_nonzero == 0:
+            return CompositeScreenResult((), True, share, n_nonzero), False
+        z, pvalue = zero_inflation_score(v, w)
+        found = ("zero_inflated",) if pvalue < ZERO_INFLATION_LEVEL else ()
+        return CompositeScreenResult(found, True, share, n_nonzero, z, pvalue), False
+    if share >= ATOM_SHARE:
+        ok = n_nonzero >= MIN_BODY and bool(np.all(v[~zero] > 0))
+        return CompositeScreenResult(("hurdle",) if ok else (), False, share, n_nonzero), False
+    return CompositeScreenResult((), False, share, n_nonzero), True
+
+
+def screen_point_mass(
+    x: Any, weights: Any = None, *, counts: bool | None = None
+) -> CompositeScreenResult:
+    """Steps 1 and 2 of the rule only (zero inflation of counts, an atom at 0): no mixture is
+    fitted, so it is cheap. ``counts`` as for :func:`screen_composites`.
+
+    >>> import numpy as np
+    >>> screen_point_mass(np.r_[np.zeros(30), np.arange(1.0, 171.0)]).candidates
+    ('zero_inflated',)
+    >>> screen_point_mass(np.r_[np.zeros(30), np.arange(1.0, 171.0)], counts=False).candidates
+    ('hurdle',)
+    """
+    sample = check_sample(x, weights, what="composite_candidates")
+    return _point_mass_step(sample.values, sample.weights_or_ones(), counts)[0]
+
+
+def screen_composites(
+    x: Any,
+    weights: Any = None,
+    *,
+    counts: bool | None = None,
+    mixture_family: str | None = None,
+    bic_offset: float = 0.0,
+) -> CompositeScreenResult:
     """Apply the documented rule (module docstring) to values ``x`` with frequency weights.
+
+    ``counts``: whether whole numbers >= 0 are counts (None: every such sample is; False reads
+    them as measurements). ``mixture_family`` and ``bic_offset`` (>= 0): the mixture screen's
+    family and what its one-component BIC lags the best single family a caller fitted.
 
     >>> import numpy as np
     >>> g = np.random.default_rng(1)
@@ -384,24 +444,22 @@ def screen_composites(x: Any, weights: Any = None) -> CompositeScreenResult:
     """
     sample = check_sample(x, weights, what="composite_candidates")
     v, w = sample.values, sample.weights_or_ones()
-    total = float(w.sum())
-    zero = v == 0
-    share = float(w[zero].sum()) / total
-    n_nonzero = int(np.count_nonzero(~zero))
-    counts = bool(np.all(v >= 0) and np.all(v == np.round(v)))
-    if counts:
-        if share == 0.0 or n_nonzero == 0:
-            return CompositeScreenResult((), True, share, n_nonzero)
-        z, pvalue = zero_inflation_score(v, w)
-        found = ("zero_inflated",) if pvalue < ZERO_INFLATION_LEVEL else ()
-        return CompositeScreenResult(found, True, share, n_nonzero, z, pvalue)
-    if share >= ATOM_SHARE:
-        ok = n_nonzero >= MIN_BODY and bool(np.all(v[~zero] > 0))
-        return CompositeScreenResult(("hurdle",) if ok else (), False, share, n_nonzero)
+    if (
+        isinstance(bic_offset, bool)
+        or not isinstance(bic_offset, int | float)
+        or not (bic_offset >= 0 and np.isfinite(bic_offset))
+    ):
+        raise MethodError(f"bic_offset: expected a finite number >= 0, found {bic_offset!r}")
+    first, open_ = _point_mass_step(v, w, counts)
+    if not open_ or np.unique(v).size < MIN_MIXTURE_VALUES:
+        return first
+    family = default_mixture_family(v) if mixture_family is None else mixture_family
+    if family not in MIXTURE_FAMILIES or (family != "normal" and not np.all(v > 0)):
+        raise MethodError(
+            f"mixture_family: expected one of {', '.join(MIXTURE_FAMILIES)} (normal when some "
+            f"value is <= 0), found {family!r}"
+        )
     values, tally = _table(v, w)
-    if np.unique(v).size < MIN_MIXTURE_VALUES:
-        return CompositeScreenResult((), False, share, n_nonzero)
-    family = default_mixture_family(v)
     r = fit_mixture(
         values,
         family=family,  # type: ignore[arg-type]
@@ -414,9 +472,13 @@ def screen_composites(x: Any, weights: Any = None) -> CompositeScreenResult:
         rng=0,
     )
     bic = {row.n_components: row.bic for row in r.by_n_components}
-    gain = float(bic[1] - bic[2]) if 2 in bic and np.isfinite(bic.get(2, np.nan)) else None
+    gain = None
+    if 2 in bic and np.isfinite(bic[2]):
+        gain = float(bic[1] - bic[2]) - float(bic_offset)
     found = ("mixture",) if gain is not None and gain > MIXTURE_BIC_GAIN else ()
-    return CompositeScreenResult(found, False, share, n_nonzero, None, None, family, gain)
+    return CompositeScreenResult(
+        found, False, first.zero_share, first.n_nonzero, None, None, family, gain
+    )
 
 
 def composite_candidates(x: Any, weights: Any = None) -> tuple[str, ...]:

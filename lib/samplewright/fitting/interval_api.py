@@ -27,6 +27,11 @@ Methods
 * ``"kaplan_meier"``: exact and right-censored rows with entry times (truncation), a
   :class:`~samplewright.distributions.kaplan_meier.KaplanMeierSampler`.
 * ``"turnbull"``: any rows, a piecewise sampler of Turnbull's estimate.
+* ``"auto"`` (the methods of :data:`RANKING_INCOMPLETE`): the candidate families ranked on the
+  rows by their incomplete-data likelihood, the winner tested by the bootstrap that redoes the
+  truncation and censoring. Its fitter lives in a later stage
+  (:mod:`samplewright.check.auto_incomplete`) and is reached through the catalog
+  (:attr:`~samplewright.fitting.catalog.MethodSpec.incomplete`), as ``fit`` reaches ``auto``.
 
 Both nonparametric methods take option ``tail`` (``"at_last"`` default, or ``"exponential"``)
 for the mass beyond the data and describe ``X`` given ``X > t_min`` when every row is truncated
@@ -69,12 +74,15 @@ __all__ = [
     "INCOMPLETE_METHODS",
     "IncompleteRankResult",
     "NONPARAMETRIC_INCOMPLETE",
+    "RANKING_INCOMPLETE",
+    "check_product_limit_rows",
     "fit_incomplete_sample",
     "fit_interval",
     "fit_sample",
     "fit_truncated",
     "incomplete_candidates",
     "incomplete_fixed",
+    "min_rows",
     "rank_incomplete",
 ]
 
@@ -84,7 +92,11 @@ NONPARAMETRIC_INCOMPLETE: tuple[str, ...] = get_args(NonparametricIncomplete)
 INCOMPLETE_FAMILIES: tuple[str, ...] = tuple(
     n for n in FAMILY_NAMES if n in FAMILIES and not FAMILIES[n].discrete
 )
-INCOMPLETE_METHODS: tuple[str, ...] = INCOMPLETE_FAMILIES + NONPARAMETRIC_INCOMPLETE
+# methods that rank candidates on the rows (their catalog entry names an ``incomplete`` fitter)
+RANKING_INCOMPLETE: tuple[str, ...] = tuple(n for n, m in CATALOG.items() if m.incomplete)
+INCOMPLETE_METHODS: tuple[str, ...] = (
+    INCOMPLETE_FAMILIES + RANKING_INCOMPLETE + NONPARAMETRIC_INCOMPLETE
+)
 _NONPARAMETRIC_OPTIONS = frozenset({"tail"})
 # default candidates (the same split as ``auto`` on complete data)
 _POSITIVE = ("lognormal", "gamma", "weibull", "exponential", "inverse_gaussian")
@@ -170,7 +182,13 @@ def incomplete_fixed(method: str, options: Mapping[str, Any]) -> dict[str, float
     return fixed
 
 
-def _min_rows(method: str) -> int:
+def min_rows(method: str) -> int:
+    """The fewest rows (of weight > 0) ``method`` fits on incomplete data: its catalog minimum,
+    1 for the nonparametric methods.
+
+    >>> min_rows("gamma"), min_rows("turnbull")
+    (2, 1)
+    """
     spec = CATALOG.get(method)
     return spec.min_obs if spec is not None and method not in NONPARAMETRIC_INCOMPLETE else 1
 
@@ -228,7 +246,7 @@ def fit_truncated(
     """
     method = _method(method)
     _check_options(method, options)
-    checked = check_sample(values, weights, censored, min_n=_min_rows(method), what=method)
+    checked = check_sample(values, weights, censored, min_n=min_rows(method), what=method)
     n = int(np.size(values))
     if truncation is None or np.ndim(truncation) == 0:
         t = truncation
@@ -321,7 +339,7 @@ def fit_interval(
             truncation=full.truncation[keep],
             weights=full.weights[keep],
         )
-    need = _min_rows(method)
+    need = min_rows(method)
     if sample.n_rows < need:
         raise MethodError(f"{method} needs at least {need} rows, found {sample.n_rows}")
     return fit_incomplete_sample(sample, method, n_dropped=n_dropped, **options)
@@ -337,17 +355,15 @@ def fit_incomplete_sample(
     method = _method(method)
     _check_options(method, options)
     if method == "kaplan_meier":
-        bad = ~sample.is_exact & ~sample.is_right
-        if bad.any():
-            i = int(np.flatnonzero(bad)[0])
-            raise MethodError(
-                f"kaplan_meier takes exact and right-censored rows; row {i} is "
-                f"({float(sample.lower[i])!r}, {float(sample.upper[i])!r}] "
-                f"({int(bad.sum())} such rows): use method 'turnbull'"
-            )
+        check_product_limit_rows(sample)
         sampler: Sampler = product_limit_sampler(sample, tail=options.get("tail", "at_last"))
     elif method == "turnbull":
         sampler = turnbull_sampler(sample, tail=options.get("tail", "at_last"))
+    elif method in RANKING_INCOMPLETE:
+        from samplewright.fitting.registry import load_object
+
+        ranking_fitter = load_object(str(CATALOG[method].incomplete))
+        sampler = ranking_fitter(sample, method, **options)
     else:
         r = _fit_family(sample, method, incomplete_fixed(method, options))
         sampler = ParametricSampler(
@@ -361,6 +377,18 @@ def fit_incomplete_sample(
         )
     sampler.diagnostics["incomplete"]["n_dropped"] = int(n_dropped)
     return sampler
+
+
+def check_product_limit_rows(sample: IncompleteSample) -> None:
+    """Refuse rows ``kaplan_meier`` cannot take: any that is neither exact nor right-censored."""
+    bad = ~sample.is_exact & ~sample.is_right
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise MethodError(
+            f"kaplan_meier takes exact and right-censored rows; row {i} is "
+            f"({float(sample.lower[i])!r}, {float(sample.upper[i])!r}] "
+            f"({int(bad.sum())} such rows): use method 'turnbull'"
+        )
 
 
 def fit_sample(sample: CheckedSample, method: str, **options: Any) -> Sampler:
@@ -441,6 +469,9 @@ class IncompleteRankResult:
         Fitted mass above the smallest truncation point (1.0 without truncation).
     error : str or None
         The one-line reason the fit failed.
+    diagnostics : dict
+        What a fit of the family records under ``diagnostics["incomplete"]`` (counts of the
+        rows of each kind, truncation, iterations); empty when the fit failed.
     """
 
     family: str
@@ -451,6 +482,7 @@ class IncompleteRankResult:
     bic: float = float("nan")
     mass_above_truncation: float = float("nan")
     error: str | None = None
+    diagnostics: dict[str, Any] = field(default_factory=dict)
 
     @property
     def ok(self) -> bool:
@@ -531,7 +563,14 @@ def rank_incomplete(
             failed.append(IncompleteRankResult(name, error=str(err)))
             continue
         cand = IncompleteRankResult(
-            name, dict(r.params), r.loglik, r.n_params, r.aic, r.bic, r.mass_above_truncation
+            name,
+            dict(r.params),
+            r.loglik,
+            r.n_params,
+            r.aic,
+            r.bic,
+            r.mass_above_truncation,
+            diagnostics=_family_diagnostics(sample, r),
         )
         ok.append(((round(r.aic if criterion == "aic" else r.bic, 8), r.n_params, i), cand))
     ok.sort(key=lambda t: t[0])

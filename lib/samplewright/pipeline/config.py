@@ -240,14 +240,23 @@ def check_method(where: str, method: str, options: Mapping[str, Any]) -> MethodS
     from samplewright.fitting.catalog import METHOD_OPTIONS, METHODS
 
     if method not in METHODS:
+        from samplewright.pipeline.cli.method_help import nearest  # the CLI's rule (difflib)
+
+        near = nearest(method, METHODS)
+        hint = f"; did you mean {near!r}?" if near else ""
         raise ConfigError(
-            f"{where}: unknown method {method!r} (expected one of: {', '.join(METHODS)})"
+            f"{where}: unknown method {method!r}{hint} ('samplewright fit --help' lists every "
+            "method)"
         )
     bad = sorted(set(options) - METHOD_OPTIONS[method])
     if bad:
+        from samplewright.pipeline.cli.method_help import nearest
+
         allowed = ", ".join(sorted(METHOD_OPTIONS[method])) or "none"
+        near = nearest(bad[0], sorted(METHOD_OPTIONS[method]))
+        hint = f"; did you mean {near!r}?" if near else ""
         raise ConfigError(
-            f"{where}.options: unknown option {bad[0]!r} for {method} (allowed: {allowed})"
+            f"{where}.options: unknown option {bad[0]!r} for {method}{hint} (allowed: {allowed})"
         )
     spec = MethodSpec(method, method, dict(options))
     try:
@@ -375,7 +384,8 @@ def _check_elicited(
 
 
 def _check_incomplete(where: str, specs: list[MethodSpec]) -> None:
-    """Every candidate must fit truncated / interval rows (imports the fitting module)."""
+    """Every candidate must fit truncated / interval rows (imports the fitting module); ``auto``
+    ranks its candidates on them (:mod:`samplewright.check.auto_incomplete`)."""
     from samplewright.fitting.interval_api import INCOMPLETE_METHODS
 
     for i, spec in enumerate(specs):
