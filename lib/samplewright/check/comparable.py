@@ -11,10 +11,14 @@ What each method is, as far as a criterion goes (:func:`method_outcome`):
 
 * ``"mass"``: the count families (``poisson``, ``negative_binomial``, ``geometric``,
   ``binomial``; the catalog's :attr:`~samplewright.fitting.catalog.MethodSpec.counts`);
-* ``"density"``: every other parametric family;
-* ``auto``: what its ``candidates`` are (a list mixing the two is refused as such); without
-  ``candidates`` its data decide (``"data"``: whole-number data may be read as counts,
-  :mod:`samplewright.check.auto`), which is checked once fitted;
+* ``"density"``: every other parametric family, and ``mixture`` (a mixture of densities);
+* ``zero_inflated``: ``"mass"`` (a count model with extra zeros);
+* ``hurdle``: ``"point_mass"``: a probability at one value plus a density elsewhere. Its
+  likelihood mixes the two scales, so it is compared only with other hurdles (same data, same
+  share at the point: their likelihoods differ by the continuous part alone);
+* ``auto`` and ``averaged``: what their ``candidates`` are (a list mixing the two is refused
+  as such); without ``candidates`` the data decide (``"data"``: whole-number data may be read
+  as counts, :mod:`samplewright.check.auto`), which is checked once fitted;
 * ``None``: methods a criterion does not rank (``empirical``, ``interpolated``, ``spliced``,
   ``smoothed``, ``kaplan_meier``, ``empirical_pmf``: no comparable likelihood).
 
@@ -40,7 +44,7 @@ __all__ = [
 ]
 
 # What a method's likelihood is a likelihood of ("data": decided by the data, at fit time).
-Outcome = Literal["density", "mass", "data"]
+Outcome = Literal["density", "mass", "point_mass", "data"]
 # The selection rules that compare likelihoods.
 RANKED_RULES = ("aic", "bic")
 
@@ -65,12 +69,19 @@ def method_outcome(method: str, options: Mapping[str, Any] | None = None) -> Out
         raise MethodError(f"method: unknown method {method!r}")
     if spec.group == "family":
         return "mass" if spec.counts else "density"
-    if method != "auto":
+    fixed: dict[str, Outcome] = {
+        "mixture": "density",
+        "zero_inflated": "mass",
+        "hurdle": "point_mass",
+    }
+    if method in fixed:
+        return fixed[method]
+    if method not in ("auto", "averaged"):
         return None
     candidates = (options or {}).get("candidates")
     if not candidates:
         return "data"
-    where = "option 'candidates' of auto"
+    where = f"option 'candidates' of {method}"
     if not isinstance(candidates, list | tuple):
         raise MethodError(f"{where}: expected a list of family names, found {candidates!r}")
     kinds = {c: _family_outcome(c, where) for c in candidates}
@@ -92,6 +103,14 @@ def _who(labels: list[str]) -> str:
 def _refuse_mix(rule: str, kinds: Mapping[str, Outcome | None]) -> None:
     mass = [label for label, k in kinds.items() if k == "mass"]
     dens = [label for label, k in kinds.items() if k == "density"]
+    point = [label for label, k in kinds.items() if k == "point_mass"]
+    if point and (mass or dens):
+        raise MethodError(
+            f"choose {rule!r}: {_who(point)} a point mass plus a density (a hurdle) but "
+            f"{_who(mass + dens)} {'counts' if mass else 'a density'} alone; their "
+            f"{rule.upper()} are not comparable (one likelihood mixes a probability with "
+            "densities). Compare hurdles with hurdles, or choose a method label"
+        )
     if mass and dens:
         raise MethodError(
             f"choose {rule!r}: {_who(mass)} counts (a probability mass) but {_who(dens)} a "
@@ -138,12 +157,22 @@ def check_comparable(methods: Sequence[tuple[str, str, Mapping[str, Any]]], rule
     _refuse_mix(rule, kinds)
 
 
-def _fitted_outcome(sampler: Any, rule: str) -> Outcome | None:
-    value = getattr(sampler, rule, None)
+def _model_outcome(sampler: Any) -> Outcome | None:
+    """What a fitted sampler's likelihood is a likelihood of (module docstring)."""
+    inner = getattr(sampler, "inner", None)
+    if inner is not None and getattr(sampler, "kind", None) == "point_mass":
+        # zero-inflated counts: a mass; a point mass beside a density: a hurdle
+        return "mass" if _model_outcome(inner) == "mass" else "point_mass"
     family = getattr(sampler, "family", None)
-    if value is None or family is None:
+    if family is None:
         return None
+    if isinstance(family, str):  # a mixture names its continuous family
+        return "density"
     return "mass" if bool(getattr(family, "discrete", False)) else "density"
+
+
+def _fitted_outcome(sampler: Any, rule: str) -> Outcome | None:
+    return None if getattr(sampler, rule, None) is None else _model_outcome(sampler)
 
 
 def check_comparable_fitted(samplers: Sequence[tuple[str, Any]], rule: str) -> None:
