@@ -222,12 +222,12 @@ while True:
 
 @pytest.mark.slow
 def test_killed_writers_never_leave_partial_artifacts_or_lasting_temps(tmp_path: Path) -> None:
-    """110 writers SIGKILLed at random moments: every file under a final name loads and
+    """60 writers SIGKILLed at random moments: every file under a final name loads and
     verifies, and the next write leaves no temporary file behind."""
     rng = random.Random(20261203)
     env = {**os.environ, "PYTHONPATH": os.pathsep.join(sys.path)}
     kills, temps_seen = 0, 0
-    for _ in range(110):
+    for _ in range(60):
         with subprocess.Popen(
             [sys.executable, "-c", _WRITER, str(tmp_path)],
             stdout=subprocess.PIPE,
@@ -250,4 +250,4 @@ def test_killed_writers_never_leave_partial_artifacts_or_lasting_temps(tmp_path:
                 pytest.fail(f"partial artifact under a final name: {exc}")
     write_sampler(EmpiricalSampler(np.arange(3.0)), tmp_path / "next.parquet")
     assert not [p for p in tmp_path.iterdir() if is_temp_name(p.name)]
-    assert kills == 110 and temps_seen > 0  # some kills did land mid-write
+    assert kills == 60 and temps_seen > 0  # some kills did land mid-write
