@@ -15,6 +15,8 @@ import pandas as pd
 import pytest
 import yaml
 
+from samplewright.pipeline.report_args import checks, joint_report_path
+
 from .conftest import BIN, dry, nothing_to_do, snakemake
 
 pytestmark = pytest.mark.pipeline
@@ -44,7 +46,7 @@ def test_every_dataset_has_its_report_page(pipeline: Path) -> None:
         assert re.search(rf"<h1>{name}</h1>", text)
         doc = json.loads(page.with_suffix(".json").read_text())
         assert doc["dataset"] == name and doc["selected"] is not None
-        if plan.has_check(name):
+        if checks(plan, name):
             summary = json.loads((pipeline / plan.check_path(name)).read_text())
             assert summary["selected"]["label"] == doc["selected"]
     # the analyst named the spliced sampler for repair_hours (config.yaml: choose: spliced)
@@ -144,3 +146,46 @@ def test_store_verify_passes_on_the_pipeline_store(pipeline: Path) -> None:
     )
     assert proc.returncode == 0, proc.stdout[-2000:] + proc.stderr
     assert "FAIL" not in proc.stdout
+
+
+def test_incomplete_datasets_are_checked_against_their_nonparametric_estimate(
+    pipeline: Path,
+) -> None:
+    """The claims (per-policy deductibles, limits) and the censored pump lives get a check
+    summary whose parametric candidates are tested by the bootstrap that redoes the censoring
+    and truncation, against Kaplan–Meier with entry times; the claims page compares given
+    above the smallest deductible."""
+    plan = _plan(pipeline)
+    claims = json.loads((pipeline / plan.check_path("damage_claims")).read_text())
+    # the invented deductibles are 250, 500, 1000 or 2500 EUR (make_data.py): all rows truncated
+    assert claims["reference"] == "kaplan_meier" and claims["conditioned_on"] == 250.0
+    tested = {r["label"]: r["gof"] for r in claims["candidates"] if r["gof"]}
+    assert {"lognormal", "weibull"} <= set(tested)
+    assert all(
+        g["test"] == "incomplete" and g["pvalues"]["ks"] is not None for g in tested.values()
+    )
+    assert all(r["intervals"] for r in claims["candidates"])
+    pumps = json.loads((pipeline / plan.check_path("pump_life")).read_text())
+    assert pumps["candidates"][0]["gof"]["test"] == "incomplete"
+    md = (pipeline / plan.check_path("pump_life")).with_suffix(".md").read_text()
+    assert "bootstrap tests apply to the parametric families" not in md
+    page = json.loads(
+        (pipeline / plan.report_path("damage_claims")).with_suffix(".json").read_text()
+    )
+    assert page["given_above"]["threshold"] == 250.0
+    assert page["data"]["label"] == "Kaplan–Meier (nonparametric)"
+
+
+def test_joint_input_page_is_built_by_its_rule(pipeline: Path) -> None:
+    """The joint input's page (rule sw_joint_report) is made on request, with rank correlations."""
+    plan = _plan(pipeline)
+    path = joint_report_path(plan, "repair_cost")
+    run = snakemake(pipeline, path)
+    assert run.returncode == 0, run.out[-3000:]
+    text = (pipeline / path).read_text()
+    assert "samplewright joint input report" in text and "<script" not in text
+    doc = json.loads((pipeline / path).with_suffix(".json").read_text())
+    assert doc["joint"] == "repair_cost" and doc["rank_correlations"][0]["columns"] == [
+        "hours",
+        "cost_per_crew_hour",
+    ]

@@ -163,3 +163,19 @@ def test_bad_arguments_are_refused_by_name(kwargs: dict[str, object], message: s
     s = incomplete_sample([2.0, 3.0, 5.0, 8.0], [2.0, 4.0, 5.0, INF])
     with pytest.raises(MethodError, match=re.escape(message)):
         goodness_of_fit_incomplete(s, "weibull", **kwargs)  # type: ignore[arg-type]
+
+
+def test_replicate_refits_are_kept_for_intervals() -> None:
+    """The refitted parameters of the successful replicates are kept, one per null statistic,
+    and each reproduces its statistic."""
+    s, limit = _claims(n=60)
+    r = goodness_of_fit_incomplete(s, "weibull", n_resamples=6, rng=4, censor_at=limit)
+    assert len(r.replicate_params) == r.null_distribution.size == 6 - r.n_failed
+    rep = gi._replicate(
+        gi._mechanism(s, limit, None), "weibull", r.params, np.random.default_rng(4)
+    )
+    first = incomplete_distance(rep, "weibull", r.replicate_params[0])[0]
+    assert first == r.null_distribution[0]
+    # source: scipy.stats.weibull_min with the refitted parameters is a proper distribution
+    p = r.replicate_params[0]
+    assert stats.weibull_min(p["shape"], scale=p["scale"]).cdf(1e9) == pytest.approx(1.0)

@@ -160,3 +160,19 @@ def test_pictures_are_reproducible(data: np.ndarray, curves: list[plots.Curve]) 
     b = plots.plot_qq(data, curves[0][1], units=UNITS)
     assert a.png == b.png
     assert re.search(rb"tIME|Creation Time", a.png) is None
+
+
+def test_three_points_are_drawn_on_the_curve_with_the_mode() -> None:
+    """A PERT from (12, 20, 55): lowest and highest value at 0 and 1, the mode marked where the
+    curve crosses it."""
+    from samplewright.fitting.expert import from_three_points
+
+    s = from_three_points(12.0, 20.0, 55.0)
+    result = plots.plot_elicited(s, [0.0, 1.0], [12.0, 55.0], mode=20.0, units="days")
+    # source: scipy.stats.beta with the PERT shapes of Malcolm et al. (1959):
+    # alpha = 1 + 4 (mode - low) / (high - low), beta = 1 + 4 (high - mode) / (high - low)
+    a, b = 1 + 4 * 8 / 43, 1 + 4 * 35 / 43
+    at_mode = stats.beta(a, b).cdf(8 / 43)
+    assert f"most likely value 20, where the curve is at {at_mode:.3f}" in result.alt
+    assert "P0: +0.000, P100: +0.000" in result.alt
+    assert result.axis_labels == (("value (days)", "cumulative probability"),)

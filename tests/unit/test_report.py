@@ -410,3 +410,168 @@ def test_report_rule_arguments_follow_the_dataset(tmp_path: Path) -> None:
     ]
     with pytest.raises(ValueError, match="what"):
         optional_input(plan, "nothing", "hours")
+
+
+# --- texts that said something untrue, intervals for every candidate, elicited points ---------
+
+
+def test_failed_refits_are_said_to_be_left_out() -> None:
+    """Failed refits are described as gof.py treats them: left out of the p-values."""
+    from samplewright.check.report_model import Candidate, CheckReportInput, FitCheck
+    from samplewright.check.report_numbers import derive_numbers
+
+    x = np.random.default_rng(31).gamma(2.0, 3.0, 100)
+    c = Candidate("weibull", sw.fit(x, "weibull"), fit_checks=(FitCheck("ks", 0.05, 0.4, 99, 15),))
+    found = [w.message for w, _ in derive_numbers(CheckReportInput("d", (c,))).warnings]
+    # source: samplewright.check.gof: p = (1 + #{T* >= T}) / (1 + B_ok) over successful refits,
+    # unreliable above 10% failures (common practice, no outside source)
+    assert found == [
+        "weibull: 15 of 99 bootstrap refits failed; they are left out of its p-values (computed "
+        "over the 84 that succeeded), which assumes the failures are unrelated to how well the "
+        "model fits; more than 10% failed, so those p-values are unreliable"
+    ]
+
+
+def test_a_fit_not_rejected_is_not_said_to_pass(tmp_path: Path, run_cli) -> None:
+    """The summary says what was tested and at which level, not that the fit 'passes'."""
+    x = np.random.default_rng(32).lognormal(1.0, 0.5, 200)
+    data = _csv(tmp_path / "d.csv", x)
+    ln = _fit_cli(run_cli, data, "lognormal", tmp_path / "lognormal.parquet")
+    sel = tmp_path / "sel.parquet"
+    assert run_cli("select", ln, "--by", "first", "--out", sel)[0] == 0
+    out = tmp_path / "c.json"
+    assert run_cli("check", data, "-c", "hours", ln, "--selected", sel, "--out", out)[0] == 0
+    doc = json.loads(out.read_text())
+    # source: scipy.stats.goodness_of_fit does not reject the lognormal for lognormal data
+    ref = stats.goodness_of_fit(
+        stats.lognorm, x, known_params={"loc": 0}, n_mc_samples=99, rng=np.random.default_rng(3)
+    )
+    assert ref.pvalue > 0.01 and doc["selected"]["poor_fit"] is False
+    head = out.with_suffix(".md").read_text().split("## The tail")[0]
+    assert "passes" not in head
+    assert "Tested: the distance to the data's empirical CDF (KS, AD, CvM)" in head
+    assert "None of these p-values is at or below 0.01" in head
+
+
+def test_report_of_other_data_names_an_option_that_exists(tmp_path: Path, run_cli) -> None:
+    """The report's refusal of another dataset's sampler points to the check's option, and
+    following it writes the page."""
+    rng = np.random.default_rng(33)
+    a = _csv(tmp_path / "a.csv", rng.gamma(2.0, 3.0, 100))
+    b = _csv(tmp_path / "b.csv", rng.gamma(2.0, 3.0, 100))
+    fitted_a = _fit_cli(run_cli, a, "gamma", tmp_path / "gamma_a.parquet")
+    page = tmp_path / "p.html"
+    code, _, err = run_cli("report", fitted_a, "--data", b, "-c", "hours", "--out", page)
+    assert code == 2 and "'samplewright check ... --allow-other-data --html PAGE'" in err
+    code, _, err = run_cli("report", fitted_a, "--allow-other-data", "--out", page)
+    assert code == 2  # argparse: the report command has no such option, as the message implies
+    code, _, err = run_cli(
+        "check", b, "-c", "hours", fitted_a, "--allow-other-data", "--gof-resamples", "0",
+        "--out", tmp_path / "c.json", "--html", page,
+    )  # fmt: skip
+    assert code == 0, err
+    assert page.is_file()
+
+
+def test_every_candidate_gets_bootstrap_intervals_of_its_tail() -> None:
+    """An empirical candidate's intervals are scipy's percentile bootstrap on the same
+    resamples; a lognormal's parametric bootstrap is as wide as the delta method says."""
+    from samplewright.check.candidate_intervals import candidate_intervals
+
+    x = np.random.default_rng(34).lognormal(1.0, 0.6, 120)
+    emp = candidate_intervals(sw.fit(x, "empirical"), values=x, rng=np.random.default_rng(5))
+    assert emp is not None and emp.source == "nonparametric bootstrap"
+
+    def q90(v: np.ndarray, axis: int) -> np.ndarray:
+        return np.quantile(v, 0.9, method="inverted_cdf", axis=axis)
+
+    # source: scipy.stats.bootstrap, percentile method, same seed (same resamples)
+    ref = stats.bootstrap(
+        (x,), q90, n_resamples=99, method="percentile", rng=np.random.default_rng(5)
+    ).confidence_interval
+    assert (emp.quantiles[0.9].low, emp.quantiles[0.9].high) == pytest.approx(
+        (ref.low, ref.high), rel=1e-12
+    )
+    ln = sw.fit(x, "lognormal")
+    par = candidate_intervals(ln, values=x, n_resamples=399, rng=np.random.default_rng(6))
+    assert par is not None and par.source == "parametric bootstrap" and par.n_failed == 0
+    s, z = ln.params["sigma"], stats.norm.ppf(0.99)
+    # source: delta method for the normal MLE (from memory): var(mu) = s^2/n,
+    # var(sigma) = s^2/(2n), so log Q(0.99) = mu + z sigma has sd s sqrt((1 + z^2/2) / n)
+    sd = s * np.sqrt((1 + z * z / 2) / x.size)
+    width = np.log(par.quantiles[0.99].high) - np.log(par.quantiles[0.99].low)
+    assert width == pytest.approx(2 * 1.96 * sd, rel=0.2)
+    lo, hi = par.tail_mean.low, par.tail_mean.high  # type: ignore[union-attr]
+    assert lo < float(np.exp(ln.params["mu"] + s * z)) < hi  # the tail mean lies above Q(0.99)
+
+
+@pytest.mark.slow
+def test_check_and_page_show_intervals_for_every_candidate(tmp_path: Path, run_cli) -> None:
+    """The summary records intervals for each candidate and the page shows them in the lead."""
+    x = np.random.default_rng(35).gamma(2.0, 3.0, 300)
+    data = _csv(tmp_path / "d.csv", x)
+    arts = [_fit_cli(run_cli, data, m, tmp_path / f"{m}.parquet") for m in ("gamma", "spliced")]
+    sel = tmp_path / "sel.parquet"
+    assert run_cli("select", *arts, "--by", "first", "--out", sel)[0] == 0
+    out, page = tmp_path / "c.json", tmp_path / "p.html"
+    code, _, err = run_cli(
+        "check", data, "-c", "hours", *arts, "--selected", sel, "--gof-resamples", "19",
+        "--out", out, "--html", page,
+    )  # fmt: skip
+    assert code == 0, err
+    doc = json.loads(out.read_text())
+    sources = [r["intervals"]["source"] for r in doc["candidates"]]
+    assert sources == ["parametric bootstrap", "parametric bootstrap of the tail"]
+    nums = json.loads(page.with_suffix(".json").read_text())
+    spliced = nums["candidates"][1]
+    ci = spliced["quantile_intervals"]["0.99"]
+    assert ci["low"] < spliced["quantiles"]["0.99"] < ci["high"]
+    assert "The tail of every candidate" in page.read_text()
+    assert "## The tail of every candidate" in out.with_suffix(".md").read_text()
+
+
+def test_three_points_report_shows_the_elicited_points(tmp_path: Path, run_cli) -> None:
+    """A three-point input's page draws its lowest, most likely and highest value on the CDF."""
+    art = tmp_path / "lead.parquet"
+    assert run_cli("elicit", "--three-points", "12,20,55", "--out", art)[0] == 0
+    page = tmp_path / "lead.html"
+    code, _, err = run_cli("report", art, "--selected", art, "--units", "days", "--out", page)
+    assert code == 0, err
+    text = page.read_text()
+    assert "Elicited points on the curve" in text and "most likely value 20" in text
+    # source: scipy.stats.beta with the PERT shapes of Malcolm et al. (1959)
+    at_mode = stats.beta(1 + 4 * 8 / 43, 1 + 4 * 35 / 43).cdf(8 / 43)
+    assert f"where the curve is at {at_mode:.3f}" in text
+    assert "Grey: the data" not in text  # there are no data on this page
+
+
+def test_report_rule_arguments_of_a_table_dataset(tmp_path: Path) -> None:
+    """A dataset read as a table (truncation column) gets its check summary too."""
+    import pandas as pd
+
+    from samplewright.pipeline.plan import Plan
+    from samplewright.pipeline.report_args import check_args, checks, optional_input, report_args
+
+    rng = np.random.default_rng(36)
+    path = tmp_path / "claims.csv"
+    pd.DataFrame({"damage": 2000.0 + rng.gamma(2.0, 900.0, 60), "deductible": 2000.0}).to_csv(
+        path, index=False
+    )
+    plan = Plan(
+        {
+            "store": str(tmp_path / "store"),
+            "datasets": {
+                "claims": {
+                    "path": str(path),
+                    "column": "damage",
+                    "truncation": "deductible",
+                    "units": "EUR",
+                    "methods": ["lognormal", "kaplan_meier"],
+                }
+            },
+        }
+    )
+    assert plan.is_table("claims") and checks(plan, "claims")
+    assert f"--check {plan.check_path('claims')}" in report_args(plan, "claims")
+    assert optional_input(plan, "check", "claims") == [plan.check_path("claims")]
+    assert check_args(plan, "claims") == "--units EUR"

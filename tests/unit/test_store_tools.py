@@ -271,3 +271,21 @@ def test_duckdb_opens_a_parametric_artifact(tmp_path: Path) -> None:
     # source: duckdb's Parquet reader
     assert duckdb.sql(f"select count(*) from read_parquet('{path}')").fetchall() == [(0,)]
     assert sw.load_sampler(path).payload() == {}
+
+
+def test_export_json_says_what_was_written(workflow: Path, run_cli: Cli) -> None:
+    """`store export --json` prints the file written, its rows, columns and size as JSON."""
+    plan = Plan(yaml.safe_load((workflow / "config.yaml").read_text())["samplewright"])
+    code, out, err = run_cli("store", "export", "pumps", "--out", "d.parquet", "--json")
+    assert code == 0, err
+    doc = json.loads(out)
+    # source: pyarrow's reader of the file written, and the operating system's file size
+    table = pq.read_table("d.parquet")
+    assert doc == {
+        "source": plan.draws_path("pumps"),
+        "out": "d.parquet",
+        "format": "parquet",
+        "rows": table.num_rows,
+        "columns": table.column_names,
+        "bytes": os.path.getsize("d.parquet"),
+    }

@@ -1,8 +1,12 @@
 # Checks and reports: every candidate against the data (included by samplewright.smk).
 #
-#   sw_check   a check summary per dataset read from one column: which candidate was selected
-#              and why, goodness of fit, every warning, the previous selection found in the store
-#              and what moved since (JSON, Markdown beside);
+#   sw_check   a check summary per dataset read from data (one column, a truncated column, or a
+#              table snapshot of columns by role: truncation, censoring, interval rows): which
+#              candidate was selected and why, goodness of fit (for incomplete data against the
+#              matching nonparametric estimate, by a bootstrap that redoes the censoring and
+#              truncation), every candidate's tail with bootstrap intervals, every warning, the
+#              previous selection found in the store and what moved since (JSON, Markdown
+#              beside);
 #   sw_report  the self-contained HTML page per dataset (its numbers as JSON beside), registered
 #              with Snakemake's report(): `snakemake --report report.html` gathers every page,
 #              one category per dataset.
@@ -31,6 +35,7 @@ rule sw_check:
         store=lambda wc: SW.layout.root,
         seed=SW.root_seed,
         threshold=SW.config["report"]["drift_threshold"],
+        args=lambda wc: _sw_report_args.check_args(SW, wc.dataset),
     log:
         SW.layout.log("check", "{dataset}", "{key}"),
     benchmark:
@@ -38,7 +43,7 @@ rule sw_check:
     shell:
         "samplewright check {input.data:q} {input.candidates:q} --selected {input.selected:q}"
         " {params.labels} --dataset {wildcards.dataset} --store {params.store:q}"
-        " --drift-threshold {params.threshold} --seed {params.seed}"
+        " --drift-threshold {params.threshold} --seed {params.seed} {params.args}"
         " --stream {wildcards.dataset} --stream check --out {output.json:q} > {log:q} 2>&1"
 
 
@@ -61,7 +66,7 @@ rule sw_report:
         ),
         json=SW.layout.report_json("{dataset}", "{key}"),
     wildcard_constraints:
-        dataset=SW.dataset_pattern,
+        dataset=_sw_report_args.dataset_report_pattern(SW),
         key=SW.key_pattern,
     params:
         results_version=SW.results_version,

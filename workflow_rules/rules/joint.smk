@@ -1,5 +1,11 @@
-# Joint inputs: several row-aligned columns as one sampler, and its draws (included by
-# samplewright.smk). The table snapshot is made by sw_table_snapshot (intake.smk).
+# Joint inputs: several row-aligned columns as one sampler, its draws and its report page
+# (included by samplewright.smk). The table snapshot is made by sw_table_snapshot (intake.smk).
+#
+#   sw_joint_report  the page of one joint input (the report command given the joint artifact
+#                    and its table snapshot): data rows over joint draws with rank correlations,
+#                    each column against its marginal; registered with Snakemake's report().
+
+import samplewright.pipeline.report_args as _sw_joint_report_args
 
 
 rule sw_fit_joint:
@@ -50,3 +56,29 @@ rule sw_joint_draw:
         "samplewright draw {input:q} -n {params.n} --seed {params.seed}"
         " --stream {wildcards.joint} --stream draws --sequence {params.sequence}"
         " --out {output:q} > {log:q} 2>&1"
+
+
+rule sw_joint_report:
+    """The report page of one joint input (self-contained HTML; its numbers as JSON)."""
+    input:
+        joint=lambda wc: ancient(SW.joint_path(wc.joint)),
+        data=lambda wc: ancient(SW.joint_snapshot_path(wc.joint)),
+    output:
+        html=report(
+            SW.layout.report("{joint}", "{key}"),
+            caption="joint_report.rst",
+            category="{joint}",
+            subcategory="joint report",
+            labels={"joint input": "{joint}", "page": "joint report"},
+        ),
+        json=SW.layout.report_json("{joint}", "{key}"),
+    wildcard_constraints:
+        joint=SW.joint_pattern,
+        key=SW.key_pattern,
+    params:
+        results_version=SW.results_version,
+    log:
+        SW.layout.log("joint_report", "{joint}", "{key}"),
+    shell:
+        "samplewright report {input.joint:q} --data {input.data:q} --dataset {wildcards.joint}"
+        " --out {output.html:q} > {log:q} 2>&1"

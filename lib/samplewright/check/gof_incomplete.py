@@ -43,6 +43,11 @@ from typing import Any
 
 import numpy as np
 
+from samplewright.check.incomplete_reference import (
+    incomplete_rows,
+    nonparametric_points,
+    smallest_truncation,
+)
 from samplewright.core.errors import FitError, MethodError
 from samplewright.core.randomness import SeedLike, make_rng
 from samplewright.fitting.incomplete import (
@@ -53,7 +58,6 @@ from samplewright.fitting.incomplete import (
 )
 from samplewright.fitting.incomplete_families import SPECS
 from samplewright.fitting.interval_api import incomplete_fixed
-from samplewright.fitting.nonparametric_incomplete import estimate_product_limit, estimate_turnbull
 
 __all__ = ["IncompleteGofResult", "goodness_of_fit_incomplete", "incomplete_distance"]
 
@@ -87,6 +91,10 @@ class IncompleteGofResult:
     x, cdf_nonparametric, cdf_model : ndarray
         The points where ``D`` compares, the nonparametric CDF there and the fitted
         conditional CDF there (for plots and check summaries).
+    replicate_params : tuple of dict
+        The parameters refitted to each successful replicate, in the order of
+        ``null_distribution``: a parametric bootstrap of the fit (e.g. for intervals of its
+        quantiles).
     """
 
     family: str
@@ -106,38 +114,15 @@ class IncompleteGofResult:
     x: np.ndarray
     cdf_nonparametric: np.ndarray
     cdf_model: np.ndarray
+    replicate_params: tuple[dict[str, float], ...] = ()
 
 
 # ---------------------------------------------------------------------------------------------
 # the statistic
 
 
-def _nonparametric(sample: IncompleteSample) -> tuple[str, np.ndarray, np.ndarray]:
-    """The estimator's name, the points where it is determined and its CDF there."""
-    if np.all(sample.is_exact | sample.is_right):
-        r = estimate_product_limit(sample)
-        ev = r.n_events > 0
-        before = np.concatenate([[1.0], r.survival])[:-1][ev]
-        x = np.concatenate([np.repeat(r.time[ev], 2), r.time[-1:]])
-        c = np.concatenate(
-            [np.column_stack([1.0 - before, 1.0 - r.survival[ev]]).ravel(), 1.0 - r.survival[-1:]]
-        )
-        return "product_limit", x, c
-    t = estimate_turnbull(sample, tol=1e-9)
-    if not t.converged:
-        raise FitError("turnbull: the EM did not settle; the distance cannot be computed")
-    cum = np.cumsum(t.mass)
-    prev = np.concatenate([[0.0], cum[:-1]])
-    xs = np.concatenate([t.left, t.right])
-    cs = np.concatenate([prev, cum])
-    keep = np.isfinite(xs)
-    order = np.lexsort((cs[keep], xs[keep]))
-    return "turnbull", xs[keep][order], np.minimum(cs[keep][order], 1.0)
-
-
 def _conditioning(sample: IncompleteSample) -> float | None:
-    t = sample.truncation
-    return float(t.min()) if np.all(t > -np.inf) else None
+    return smallest_truncation(sample)
 
 
 def _model_cdf(family: str, params: dict[str, float], x: np.ndarray, t0: float | None) -> Any:
@@ -157,7 +142,7 @@ def incomplete_distance(
 
     Returns ``(D, estimator, x, cdf_nonparametric, cdf_model)``.
     """
-    name, x, c = _nonparametric(sample)
+    name, x, c, _ = nonparametric_points(sample)
     f = _model_cdf(family, params, x, _conditioning(sample))
     d = float(np.max(np.abs(c - f))) if x.size else 0.0
     return d, name, x, c, f
@@ -279,9 +264,14 @@ def _replicate(
 
 
 def goodness_of_fit_incomplete(
-    sample: IncompleteSample,
+    values: Any,
     family: str,
     *,
+    censored: Any = None,
+    truncation: Any = None,
+    lower: Any = None,
+    upper: Any = None,
+    weights: Any = None,
     n_resamples: int = 99,
     rng: SeedLike = None,
     censor_at: Any = None,
@@ -292,12 +282,23 @@ def goodness_of_fit_incomplete(
 
     Parameters
     ----------
-    sample : IncompleteSample
-        The rows (:func:`~samplewright.fitting.incomplete.incomplete_sample`).
+    values : array_like, IncompleteSample or None
+        One value per row (with ``censored`` flags: the censoring point where True), or the
+        rows already checked (:func:`~samplewright.fitting.incomplete.incomplete_sample`), or
+        None with ``lower`` and ``upper``.
     family : str
         A family of :data:`~samplewright.fitting.interval_api.INCOMPLETE_FAMILIES`.
     n_resamples : int
         Bootstrap replicates (``>= 0``; 0 gives the statistic with a NaN p-value).
+    censored : array_like of bool, optional
+        Right-censoring flags of ``values`` (True: the true value exceeds it).
+    truncation : float or array_like, optional
+        Lower truncation point (deductible, entry time), one or per row; ``-inf`` for none.
+    lower, upper : array_like, optional
+        Interval rows instead of ``values`` (``lower == upper`` exact, ``upper = inf``
+        right-censored, ``lower = -inf`` left-censored; grouped data with ``weights`` as counts).
+    weights : array_like, optional
+        Frequency weights.
     rng : None, int, SeedSequence or Generator
         Source of the replicates.
     censor_at : array_like, optional
@@ -318,18 +319,20 @@ def goodness_of_fit_incomplete(
     Raises
     ------
     MethodError
-        Bad options or ``censor_at``, or data the family cannot be fitted to.
+        Bad rows, options or ``censor_at``, or data the family cannot be fitted to.
 
     Examples
     --------
-    >>> from samplewright.fitting.incomplete import incomplete_from_flags
     >>> x = np.random.default_rng(5).exponential(10.0, 200) + 2.0
-    >>> s = incomplete_from_flags(np.minimum(x, 30.0), x > 30.0, truncation=2.0)
-    >>> r = goodness_of_fit_incomplete(s, "exponential", n_resamples=19, rng=1,
+    >>> r = goodness_of_fit_incomplete(np.minimum(x, 30.0), "exponential", censored=x > 30.0,
+    ...                                truncation=2.0, n_resamples=19, rng=1,
     ...                                censor_at=np.full(200, 30.0))
-    >>> r.estimator, r.n_failed, 0.0 < r.pvalue <= 1.0
-    ('product_limit', 0, True)
+    >>> r.estimator, r.n_failed, 0.0 < r.pvalue <= 1.0, r.conditioned_on
+    ('product_limit', 0, True, 2.0)
     """
+    sample = incomplete_rows(
+        values, censored=censored, truncation=truncation, lower=lower, upper=upper, weights=weights
+    )
     fixed = incomplete_fixed(family, options)
     if isinstance(n_resamples, bool) or not isinstance(n_resamples, int) or n_resamples < 0:
         raise MethodError(f"n_resamples: expected an integer >= 0, found {n_resamples!r}")
@@ -340,6 +343,7 @@ def goodness_of_fit_incomplete(
     d, name, x, c, f = incomplete_distance(sample, family, fit.params)
     gen = make_rng(rng)
     null: list[float] = []
+    refits: list[dict[str, float]] = []
     messages: list[str] = []
     n_failed = 0
     for _ in range(n_resamples):
@@ -349,6 +353,7 @@ def goodness_of_fit_incomplete(
             if not r.converged:
                 raise FitError(f"{family}: the refit did not converge")
             null.append(incomplete_distance(rep, family, r.params)[0])
+            refits.append(dict(r.params))
         except (FitError, MethodError) as err:
             n_failed += 1
             if len(messages) < _MAX_MESSAGES and str(err) not in messages:
@@ -373,4 +378,5 @@ def goodness_of_fit_incomplete(
         x=x,
         cdf_nonparametric=c,
         cdf_model=f,
+        replicate_params=tuple(refits),
     )

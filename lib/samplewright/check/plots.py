@@ -5,31 +5,44 @@ picture shows in words, the axis labels and where each plot area sits in the ima
 is imported inside the functions, so importing this module stays cheap. Figures are built with
 ``matplotlib.figure.Figure`` (no pyplot, no global state); nothing random is drawn.
 
-The data axis of every picture is labelled with the dataset's units. The confidence band of an
-empirical CDF is the Dvoretzky–Kiefer–Wolfowitz band with Massart's constant (see
-:func:`~samplewright.check.report_numbers.dkw_half_width`).
+The pictures beside the data (tail diagnostics, joint draws, elicited points, drift) are in
+:mod:`samplewright.check.plots_side`, the shared set-up in :mod:`samplewright.check.plots_base`;
+all are re-exported here. The data axis of every picture is labelled with the dataset's units.
+The confidence band of an empirical CDF is the Dvoretzky–Kiefer–Wolfowitz band with Massart's
+constant (see :func:`~samplewright.check.report_numbers.dkw_half_width`).
 """
 
 from __future__ import annotations
 
-import io
 from collections.abc import Sequence
-from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Literal
+from typing import Any, Literal
 
 import numpy as np
 
-from samplewright.check.report_model import JointInput, ReferenceEstimate, SamplerLike
-from samplewright.check.report_numbers import (
-    dkw_half_width,
-    effective_n,
-    is_discrete,
-    rank_correlation,
+from samplewright.check.plots_base import (
+    _DATA_COLOUR,
+    _MAX_BINS,
+    _MAX_POINTS,
+    Curve,
+    PlotResult,
+    _axis,
+    _ecdf,
+    _figure,
+    _finish,
+    _span,
+    _style,
+    _thin,
+    plotting_positions,
 )
-
-if TYPE_CHECKING:  # pragma: no cover
-    from matplotlib.axes import Axes
-    from matplotlib.figure import Figure
+from samplewright.check.plots_side import (
+    plot_drift,
+    plot_elicited,
+    plot_joint,
+    plot_mean_excess,
+    plot_shape_scan,
+)
+from samplewright.check.report_model import ReferenceEstimate, SamplerLike
+from samplewright.check.report_numbers import dkw_half_width, effective_n, is_discrete
 
 __all__ = [
     "Curve",
@@ -45,115 +58,8 @@ __all__ = [
     "plot_quantile_spread",
     "plot_reference",
     "plot_shape_scan",
+    "plotting_positions",
 ]
-
-Curve = tuple[str, SamplerLike]
-_DPI = 96
-_SIZE = (7.2, 4.0)
-_DATA_COLOUR = "#4d4d4d"
-_MAX_BINS = 60
-_MAX_POINTS = 2000  # points drawn in a Q–Q or P–P picture
-
-
-@dataclass(frozen=True)
-class PlotResult:
-    """A rendered picture.
-
-    Attributes
-    ----------
-    png : the PNG file's bytes.
-    alt : what the picture shows, in words (for the ``alt`` attribute).
-    axis_labels : ``(x label, y label)`` of each plot area.
-    plot_areas : ``(left, top, right, bottom)`` pixel box of each plot area in the PNG.
-    """
-
-    png: bytes
-    alt: str
-    axis_labels: tuple[tuple[str, str], ...]
-    plot_areas: tuple[tuple[int, int, int, int], ...]
-
-
-def _axis(name: str, units: str) -> str:
-    return f"{name} ({units})" if units else name
-
-
-def _figure(ncols: int = 1, size: tuple[float, float] = _SIZE) -> tuple[Figure, list[Axes]]:
-    from matplotlib.figure import Figure
-
-    fig = Figure(figsize=size, dpi=_DPI, layout="constrained")
-    axes = [fig.add_subplot(1, ncols, i + 1) for i in range(ncols)]
-    for ax in axes:
-        ax.grid(True, color="#e3e3e3", linewidth=0.6)
-        ax.set_axisbelow(True)
-    return fig, axes
-
-
-def _finish(fig: Figure, axes: Sequence[Axes], alt: str) -> PlotResult:
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-
-    FigureCanvasAgg(fig)
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=_DPI, metadata={"Software": None})
-    # savefig laid the figure out at the same dpi, so the axes now sit where the PNG shows them.
-    height = int(round(fig.get_figheight() * _DPI))
-    areas = []
-    for ax in axes:
-        box = ax.get_window_extent()
-        areas.append(
-            (int(box.x0), int(height - box.y1), int(np.ceil(box.x1)), int(height - box.y0))
-        )
-    labels = tuple((ax.get_xlabel(), ax.get_ylabel()) for ax in axes)
-    return PlotResult(buf.getvalue(), alt, labels, tuple(areas))
-
-
-def _style(i: int, label: str, selected: str | None) -> dict[str, Any]:
-    from matplotlib import colormaps
-
-    chosen = label == selected
-    return {
-        "color": colormaps["tab10"](i % 10),
-        "linewidth": 2.4 if chosen else 1.3,
-        "linestyle": "-" if chosen or selected is None else "--",
-        "label": f"{label} (selected)" if chosen else label,
-        "zorder": 3 if chosen else 2,
-    }
-
-
-def _span(values: np.ndarray | None, curves: Sequence[Curve], lo_p: float, hi_p: float) -> tuple:
-    """A plotting range: the data's range, or the curves' ``lo_p``..``hi_p`` quantiles."""
-    if values is not None:
-        lo, hi = float(np.min(values)), float(np.max(values))
-    else:
-        qs = np.array([np.asarray(s.quantile(np.array([lo_p, hi_p]))) for _, s in curves])
-        lo, hi = float(np.min(qs[:, 0])), float(np.max(qs[:, 1]))
-    pad = 0.04 * (hi - lo) if hi > lo else max(abs(hi), 1.0) * 0.1
-    return lo - pad, hi + pad
-
-
-def _ecdf(values: np.ndarray, weights: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
-    """Distinct values and the (weighted) empirical CDF at each."""
-    w = np.ones_like(values) if weights is None else weights
-    order = np.argsort(values, kind="stable")
-    x, w = values[order], w[order]
-    cum = np.cumsum(w) / np.sum(w)
-    last = np.r_[x[1:] != x[:-1], True]
-    return x[last], cum[last]
-
-
-def _thin(n: int, limit: int) -> np.ndarray:
-    """At most ``limit`` evenly spaced indices of ``range(n)``, first and last included."""
-    if n <= limit:
-        return np.arange(n)
-    return np.unique(np.linspace(0, n - 1, limit).round().astype(np.intp))
-
-
-def plotting_positions(values: Any, weights: Any = None) -> tuple[np.ndarray, np.ndarray]:
-    """Sorted values and their mid-step probabilities ``(F(x-) + F(x)) / 2`` (``(i-1/2)/n``)."""
-    x = np.asarray(values, dtype=np.float64)
-    w = np.ones_like(x) if weights is None else np.asarray(weights, dtype=np.float64)
-    order = np.argsort(x, kind="stable")
-    cum = np.cumsum(w[order]) / np.sum(w)
-    return x[order], cum - w[order] / np.sum(w) / 2.0
 
 
 def plot_density(
@@ -353,42 +259,6 @@ def plot_quantile_spread(
     return _finish(fig, [ax], alt)
 
 
-def plot_mean_excess(
-    thresholds: Any, mean_excess: Any, *, chosen: float | None = None, units: str = ""
-) -> PlotResult:
-    """Mean excess over each threshold, with the chosen tail threshold marked."""
-    fig, (ax,) = _figure()
-    ax.plot(thresholds, mean_excess, marker="o", markersize=3, color="#1f77b4", label="data")
-    if chosen is not None:
-        ax.axvline(chosen, color="#d62728", linestyle="--", label=f"chosen threshold {chosen:.4g}")
-    ax.set_xlabel(_axis("threshold", units))
-    ax.set_ylabel(_axis("mean excess over the threshold", units))
-    ax.legend(fontsize=8, frameon=False)
-    return _finish(fig, [ax], f"mean excess against threshold, in {units or 'data units'}")
-
-
-def plot_shape_scan(
-    thresholds: Any,
-    shapes: Any,
-    *,
-    low: Any = None,
-    high: Any = None,
-    chosen: float | None = None,
-    units: str = "",
-) -> PlotResult:
-    """The fitted tail shape at each threshold of a scan, with its band and the chosen one."""
-    fig, (ax,) = _figure()
-    if low is not None and high is not None:
-        ax.fill_between(thresholds, low, high, color="#c6dbef", label="interval")
-    ax.plot(thresholds, shapes, marker="o", markersize=3, color="#1f77b4", label="tail shape")
-    if chosen is not None:
-        ax.axvline(chosen, color="#d62728", linestyle="--", label=f"chosen threshold {chosen:.4g}")
-    ax.set_xlabel(_axis("threshold", units))
-    ax.set_ylabel("tail shape ξ (no unit)")
-    ax.legend(fontsize=8, frameon=False)
-    return _finish(fig, [ax], f"tail shape against threshold in {units or 'data units'}")
-
-
 def plot_reference(
     reference: ReferenceEstimate,
     curves: Sequence[Curve],
@@ -419,103 +289,3 @@ def plot_reference(
     ax.legend(fontsize=8, frameon=False, loc="lower right")
     alt = f"{reference.label} estimate with its band and each candidate's CDF"
     return _finish(fig, [ax], alt + f"; value axis in {units or 'data units'}")
-
-
-def plot_joint(joint: JointInput, *, max_pairs: int = 3, max_points: int = 3000) -> PlotResult:
-    """Scatter of data rows and of joint draws for each pair of columns, with rank correlations."""
-    data = np.asarray(joint.data, dtype=np.float64)
-    draws = np.asarray(joint.draws, dtype=np.float64)
-    rd = rank_correlation(data, joint.data_rank_correlation)
-    rs = rank_correlation(draws, joint.draws_rank_correlation)
-    d = len(joint.columns)
-    pairs = [(i, j) for i in range(d) for j in range(i + 1, d)][:max_pairs]
-    fig, axes = _figure(len(pairs), size=(4.2 * len(pairs) + 0.6, 4.2))
-    units = joint.units or ("",) * d
-    stride = max(1, draws.shape[0] // max_points)
-    for ax, (i, j) in zip(axes, pairs, strict=True):
-        ax.scatter(
-            draws[::stride, i],
-            draws[::stride, j],
-            s=4,
-            color="#9ecae1",
-            alpha=0.6,
-            label="draws",
-            rasterized=True,
-        )
-        rows = _thin(data.shape[0], max_points)
-        ax.scatter(data[rows, i], data[rows, j], s=12, color=_DATA_COLOUR, label="data")
-        ax.set_xlabel(_axis(joint.columns[i], units[i]))
-        ax.set_ylabel(_axis(joint.columns[j], units[j]))
-        ax.set_title(f"rank correlation: data {rd[i, j]:.2f}, draws {rs[i, j]:.2f}", fontsize=9)
-        ax.legend(fontsize=8, frameon=False, markerscale=2)
-    alt = "; ".join(
-        f"{joint.columns[i]} against {joint.columns[j]}: Spearman rank correlation "
-        f"{rd[i, j]:.2f} in the data, {rs[i, j]:.2f} in the draws"
-        for i, j in pairs
-    )
-    return _finish(fig, axes, "scatter of data and draws, " + alt)
-
-
-def plot_elicited(
-    sampler: SamplerLike,
-    probabilities: Any,
-    values: Any,
-    *,
-    units: str = "",
-    label: str = "",
-) -> PlotResult:
-    """The sampler's CDF with the elicited points and how far the curve passes from each."""
-    p = np.asarray(probabilities, dtype=np.float64)
-    v = np.asarray(values, dtype=np.float64)
-    fig, (ax,) = _figure()
-    lo, hi = _span(None, [("", sampler)], 0.002, 0.998)
-    lo, hi = min(lo, float(v.min())), max(hi, float(v.max()))
-    grid = np.linspace(lo, hi, 800)
-    ax.plot(
-        grid,
-        np.asarray(sampler.cdf(grid)),
-        color="#1f77b4",
-        linewidth=2.0,
-        label=label or sampler.method,
-    )
-    fitted = np.asarray(sampler.cdf(v), dtype=np.float64)
-    ax.vlines(v, np.minimum(p, fitted), np.maximum(p, fitted), color="#d62728", linewidth=1.0)
-    ax.scatter(v, p, s=36, color="#d62728", zorder=4, label="elicited points")
-    ax.set_xlabel(_axis("value", units))
-    ax.set_ylabel("cumulative probability")
-    ax.legend(fontsize=8, frameon=False, loc="lower right")
-    misses = ", ".join(f"P{100 * a:g}: {b - a:+.3f}" for a, b in zip(p, fitted, strict=True))
-    alt = f"CDF of {label or sampler.method} with the elicited points (CDF minus given: {misses})"
-    return _finish(fig, [ax], alt + f"; value axis in {units or 'data units'}")
-
-
-def plot_drift(
-    old: SamplerLike,
-    new: SamplerLike,
-    *,
-    old_label: str = "previous",
-    new_label: str = "current",
-    units: str = "",
-) -> PlotResult:
-    """The previous and the current selection's CDFs, with their largest gap marked."""
-    fig, (ax,) = _figure()
-    lo, hi = _span(None, [("", old), ("", new)], 0.002, 0.998)
-    grid = np.linspace(lo, hi, 1200)
-    fo, fn = np.asarray(old.cdf(grid)), np.asarray(new.cdf(grid))
-    ax.plot(grid, fo, color="#7f7f7f", linestyle="--", linewidth=1.6, label=old_label)
-    ax.plot(grid, fn, color="#1f77b4", linewidth=2.2, label=new_label)
-    k = int(np.argmax(np.abs(fo - fn)))
-    gap = float(abs(fo[k] - fn[k]))
-    ax.vlines(
-        grid[k],
-        min(fo[k], fn[k]),
-        max(fo[k], fn[k]),
-        color="#d62728",
-        linewidth=2.0,
-        label=f"largest gap {gap:.3f}",
-    )
-    ax.set_xlabel(_axis("value", units))
-    ax.set_ylabel("cumulative probability")
-    ax.legend(fontsize=8, frameon=False, loc="lower right")
-    alt = f"CDF of {old_label} and of {new_label}; largest gap {gap:.3f} at {grid[k]:.4g}"
-    return _finish(fig, [ax], alt + f" {units}".rstrip())

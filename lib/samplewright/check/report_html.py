@@ -20,23 +20,21 @@ gives the same page.
 
 from __future__ import annotations
 
-import base64
-import html
 import math
-from collections.abc import Iterable, Sequence
 
 import numpy as np
 
 from samplewright.check import plots
-from samplewright.check.report_model import CheckReportInput, ConfidenceInterval
+from samplewright.check.html_bits import cell, escape, img, number, pct, pvalue, table
+from samplewright.check.report_model import CheckReportInput
 from samplewright.check.report_numbers import (
     CandidateNumbersResult,
     ReportNumbersResult,
     derive_numbers,
-    dkw_half_width,
     effective_n,
     is_discrete,
 )
+from samplewright.check.report_pictures import comparison_curves, given_text, pictures_section
 
 __all__ = ["CAUTION_TEXT", "QUANTILE_DEFINITION", "SECTION_IDS", "render_report_html"]
 
@@ -83,7 +81,7 @@ th,td{border-bottom:1px solid var(--line);padding:5px 10px;text-align:left;verti
 th{font-weight:600;background:#fafbfc}td.num{text-align:right;white-space:nowrap}
 tr.selected td{background:var(--pick);font-weight:600}tr.reference td{font-style:italic}
 tr.spread td{border-top:2px solid var(--ink)}
-.ci{display:block;color:var(--muted);font-size:12px;font-weight:400}
+.ci{display:block;color:var(--muted);font-size:12px;font-weight:400;white-space:normal}
 .caution{border-left:4px solid var(--accent);background:#f3f6fa;padding:10px 14px;margin:14px 0 0}
 ul.warnings{list-style:none;padding:0;margin:0}
 ul.warnings li{border-left:4px solid var(--warn);background:var(--warnbg);padding:8px 12px;
@@ -99,56 +97,13 @@ dt{color:var(--muted)}dd{margin:0;word-break:break-all}
 """
 
 
-def _e(text: object) -> str:
-    return html.escape(str(text), quote=True)
-
-
-def _num(v: float | None, digits: int = 4) -> str:
-    """A number to ``digits`` significant digits; ∞ for infinities, — when missing."""
-    if v is None:
-        return "—"
-    v = float(v)
-    if math.isnan(v):
-        return "n/a"
-    if math.isinf(v):
-        return "∞" if v > 0 else "−∞"
-    text = format(v, f".{digits}g")
-    return "0" if text in ("-0", "0") else text
-
-
-def _pct(p: float) -> str:
-    return f"{100 * p:.10g}%"
-
-
-def _pvalue(p: float | None) -> str:
-    if p is None:
-        return "—"
-    return "< 0.001" if p < 0.001 else f"{p:.3f}"
-
-
-def _cell(v: float | None, ci: ConfidenceInterval | None = None) -> str:
-    attr = "" if v is None else f' data-value="{float(v)!r}"'
-    extra = ""
-    if ci is not None:
-        extra = f'<span class="ci">{ci.level:.0%}: [{_num(ci.low)}, {_num(ci.high)}]</span>'
-    return f'<td class="num"{attr}>{_num(v)}{extra}</td>'
-
-
-def _table(head: Sequence[str], rows: Iterable[str], cls: str = "") -> str:
-    th = "".join(f"<th>{h}</th>" for h in head)
-    c = f' class="{cls}"' if cls else ""
-    return f"<table{c}><thead><tr>{th}</tr></thead><tbody>{''.join(rows)}</tbody></table>"
-
-
-def _img(result: plots.PlotResult, title: str, caption: str) -> str:
-    width = int.from_bytes(result.png[16:20], "big")
-    height = int.from_bytes(result.png[20:24], "big")
-    data = base64.b64encode(result.png).decode("ascii")
-    return (
-        f'<figure><h3>{_e(title)}</h3><img src="data:image/png;base64,{data}" '
-        f'alt="{_e(result.alt)}" width="{width}" height="{height}">'
-        f"<figcaption>{_e(caption)}</figcaption></figure>"
-    )
+_e = escape
+_num = number
+_pct = pct
+_pvalue = pvalue
+_cell = cell
+_table = table
+_img = img
 
 
 # --- sections ---------------------------------------------------------------------------------
@@ -192,12 +147,50 @@ def _draw_section(report: CheckReportInput, numbers: ReportNumbersResult) -> str
             rows.append(f"<tr><td>largest observation</td>{_cell(top)}</tr>")
             rows.append(f"<tr><td>chance a draw exceeds it</td>{_cell(above)}</tr>")
         out.append(_table(["", f"value{units}"], rows, "key"))
+        t0 = numbers.given_above
+        if t0 is not None:
+            share = numbers.share_below.get(chosen.label, 0.0)
+            out.append(
+                f'<p class="note">These are ground-up figures: the whole distribution, below '
+                f"{_e(f'{t0:.6g}')} too (the smallest truncation point), where the data saw "
+                f"nothing and {_e(f'{share:.1%}')} of the draws fall. Set beside the data, given "
+                "above that point: see How much the choice matters.</p>"
+            )
         if not (row.quantile_intervals or row.tail_mean_interval):
             out.append('<p class="note">No bootstrap intervals were given for these figures.</p>')
+    out.append(_tails_block(report, numbers))
     out.append(_drift_block(report, numbers))
     out.append(f'<p class="caution" role="note"><strong>Caution.</strong> {_e(CAUTION_TEXT)}</p>')
     out.append("</section>")
     return "".join(out)
+
+
+def _tails_block(report: CheckReportInput, numbers: ReportNumbersResult) -> str:
+    """Every candidate's tail quantiles and tail mean with their intervals (ground-up)."""
+    probs = [p for p in report.probabilities if p >= 0.9] or list(report.probabilities)
+    sources = {c.label: c.interval_source for c in report.candidates}
+    ordered = sorted(numbers.candidates, key=lambda r: r.label != report.selected)
+    rows = []
+    for r in ordered:
+        chosen = r.label == report.selected
+        cells = "".join(_cell(r.quantiles[p], r.quantile_intervals.get(p)) for p in probs)
+        how = sources.get(r.label) or (
+            "—" if not (r.quantile_intervals or r.tail_mean_interval) else "given"
+        )
+        rows.append(
+            f'<tr class="{"selected" if chosen else ""}"><td>{_e(r.label)}'
+            f"{' (selected)' if chosen else ''}</td>{cells}"
+            f"{_cell(r.tail_mean, r.tail_mean_interval)}<td>{_e(how)}</td></tr>"
+        )
+    head = ["candidate"] + [f"{_pct(p)} quantile" for p in probs]
+    head += [f"mean of highest {_pct(1 - report.tail_level)}", "interval from"]
+    return (
+        "<h3>The tail of every candidate</h3>"
+        '<p class="note">What a simulation would draw from each candidate, with 95% bootstrap '
+        "intervals where they were computed (each candidate's own data refitted many times): "
+        "how sure these figures are, and how far the candidates disagree.</p>"
+        + _table(head, rows, "tails")
+    )
 
 
 def _drift_block(report: CheckReportInput, numbers: ReportNumbersResult) -> str:
@@ -243,20 +236,26 @@ def _warnings_section(numbers: ReportNumbersResult) -> str:
     return f'<section id="warnings"><h2>Warnings ({len(items)})</h2>{body}</section>'
 
 
-def _spread_section(
-    report: CheckReportInput, numbers: ReportNumbersResult, picture: plots.PlotResult
+def _spread_table(
+    report: CheckReportInput,
+    rows_in: tuple[CandidateNumbersResult, ...],
+    spread: dict[float | str, tuple[float, float]],
+    data_row: CandidateNumbersResult | None,
+    share_below: dict[str, float] | None = None,
 ) -> str:
+    """Candidates (the selected first), the data's row, and how far the candidates spread."""
     probs = report.probabilities
-    units = f" ({_e(report.units)})" if report.units else ""
     head = ["candidate"] + [f"{_pct(p)} quantile" for p in probs]
     head.append(f"mean of highest {_pct(1 - report.tail_level)}")
-    ordered = sorted(numbers.candidates, key=lambda r: r.label != report.selected)
+    if share_below is not None:
+        head.append("share at or below t0")
+    ordered = sorted(rows_in, key=lambda r: r.label != report.selected)
 
-    def line(r: CandidateNumbersResult, cls: str, name: str) -> str:
+    def line(r: CandidateNumbersResult, cls: str, name: str, extra: str = "") -> str:
         cells = "".join(_cell(r.quantiles[p], r.quantile_intervals.get(p)) for p in probs)
         return (
             f'<tr class="{cls}"><td>{name}</td>{cells}'
-            f"{_cell(r.tail_mean, r.tail_mean_interval)}</tr>"
+            f"{_cell(r.tail_mean, r.tail_mean_interval)}{extra}</tr>"
         )
 
     rows = [
@@ -264,146 +263,70 @@ def _spread_section(
             r,
             "selected" if r.label == report.selected else "",
             _e(r.label) + (" (selected)" if r.label == report.selected else ""),
+            _cell(share_below[r.label]) if share_below is not None else "",
         )
         for r in ordered
     ]
-    if numbers.data_row is not None:
-        rows.append(line(numbers.data_row, "reference", _e(numbers.data_row.label)))
+    if data_row is not None:
+        rows.append(line(data_row, "reference", _e(data_row.label)))
     keys: list[float | str] = [*probs, "tail_mean"]
-    gap = "".join(_cell(numbers.spread[k][1] - numbers.spread[k][0]) for k in keys)
+    gap = "".join(_cell(spread[k][1] - spread[k][0]) for k in keys)
     ratio = "".join(
         _cell(hi / lo if lo > 0 and math.isfinite(hi) else None)
-        for lo, hi in (numbers.spread[k] for k in keys)
+        for lo, hi in (spread[k] for k in keys)
     )
     rows.append(f'<tr class="spread"><td>largest − smallest</td>{gap}</tr>')
     rows.append(f"<tr><td>largest ÷ smallest</td>{ratio}</tr>")
+    return _table(head, rows, "spread")
+
+
+def _spread_section(
+    report: CheckReportInput, numbers: ReportNumbersResult, picture: plots.PlotResult
+) -> str:
+    units = f" ({_e(report.units)})" if report.units else ""
+    t0 = numbers.given_above
     intro = (
         f"<p>Each candidate's answer to the questions a simulation asks{units}. The wider the "
         "spread, the more the result depends on the choice of sampler rather than on the data."
         "</p>"
     )
+    if t0 is None:
+        tables = _spread_table(report, numbers.candidates, numbers.spread, numbers.data_row)
+    else:
+        t = _e(f"{t0:.6g}")
+        tables = (
+            f"<h3>What a simulation draws (ground-up, below {t} too)</h3>"
+            f'<p class="note">The whole distribution of each candidate, t0 = {t} being the '
+            "smallest truncation point (deductible) of the data. The last column is the share "
+            "the data never saw: below t0 a family only extrapolates its shape.</p>"
+            + _spread_table(
+                report, numbers.candidates, numbers.spread, None, dict(numbers.share_below)
+            )
+            + f"<h3>Compared with the data, given above the smallest deductible t0 = {t}</h3>"
+            f'<p class="note">Every row of the data is truncated, so the data describe values '
+            f"above {t} only. Each candidate is taken given X &gt; {t}, "
+            "F_c(x) = (F(x) − F(t0)) / (1 − F(t0)), and set beside the matching nonparametric "
+            "estimate: compare like with like here, not with the ground-up rows.</p>"
+            + _spread_table(
+                report, numbers.conditional, numbers.conditional_spread, numbers.data_row
+            )
+        )
     note = f'<p class="note">{_e(QUANTILE_DEFINITION)}</p>'
+    dots = (
+        "Dots are the data's own quantiles."
+        if numbers.data_row is not None
+        else "No data quantiles are shown (no data, or incomplete data without an estimate)."
+    )
     return (
         '<section id="spread"><h2>How much the choice matters</h2>'
         + intro
-        + _table(head, rows, "spread")
+        + tables
         + note
         + _img(
             picture,
-            "Upper quantiles of every candidate",
-            "The right of the picture is the "
-            "tail: values exceeded rarely. Dots are the data's own quantiles.",
+            "Upper quantiles of every candidate" + given_text(t0, report.units),
+            "The right of the picture is the tail: values exceeded rarely. " + dots,
         )
-        + "</section>"
-    )
-
-
-_CAPTIONS = {
-    "density": "Grey: the data; lines: candidates, the selected one drawn solid and thick.",
-    "cdf": "The band is the {level} Dvoretzky–Kiefer–Wolfowitz band, ±{eps:.3f} "
-    "(sqrt(log(2/α)/(2n)), Massart's constant); a candidate leaving it disagrees with the data.",
-    "reference": "The nonparametric estimate uses the incomplete rows as they are; the band is "
-    "its own.",
-    "qq": "Points on the line: {against} and the sampler agree; a bend at the right end is a "
-    "tail that is too light or too heavy.",
-    "pp": "Points on the line: the sampler puts the right share of probability below each "
-    "observed value.",
-    "mean_excess": "A roughly straight, rising line above a threshold suggests a heavy "
-    "(Pareto-type) tail beyond it.",
-    "shape": "A threshold is reasonable where the fitted shape has stopped drifting.",
-    "joint": "Rank correlations are Spearman's.",
-    "elicited": "Red segments show how far the curve passes from each point an expert gave.",
-    "drift": "The red segment marks the largest gap between the two CDFs.",
-}
-
-
-def _qq_positions(report: CheckReportInput) -> tuple[np.ndarray, np.ndarray] | None:
-    """The nonparametric estimate's jumps and mid-step probabilities, for incomplete data."""
-    ref = report.reference
-    if ref is None or ref.kind != "step":
-        return None
-    mass = np.diff(np.r_[0.0, ref.cdf])
-    jump = mass > 0
-    return ref.x[jump], (ref.cdf - mass / 2.0)[jump]
-
-
-def _pictures(report: CheckReportInput) -> list[str]:
-    curves = [(c.label, c.sampler) for c in report.candidates]
-    sel, units, data, picked = report.selected_candidate, report.units, report.data, report.selected
-    out: list[str] = []
-    x = data.values if data is not None else None
-    w = data.weights if data is not None else None
-    discrete = data.discrete if data is not None else None
-    pic = plots.plot_density(x, curves, weights=w, discrete=discrete, units=units, selected=picked)
-    out.append(_img(pic, "Data and candidate densities", _CAPTIONS["density"]))
-    if data is not None and not data.is_incomplete:
-        alpha = report.band_alpha
-        eps = dkw_half_width(effective_n(data.weights, data.values.size), alpha)
-        pic = plots.plot_cdf(x, curves, weights=w, alpha=alpha, units=units, selected=picked)
-        text = _CAPTIONS["cdf"].format(level=f"{1 - alpha:.0%}", eps=eps)
-        out.append(_img(pic, "Cumulative distribution with a confidence band", text))
-    ref = report.reference
-    if ref is not None:
-        pic = plots.plot_reference(ref, curves, units=units, selected=picked)
-        out.append(_img(pic, f"{ref.label} estimate and the candidates", _CAPTIONS["reference"]))
-    positions = _qq_positions(report) if data is not None and data.is_incomplete else None
-    if sel is not None and data is not None and (positions is not None or not data.is_incomplete):
-        s, label = sel.sampler, sel.label
-        pic = plots.plot_qq(x, s, weights=w, positions=positions, units=units, label=label)
-        against = "the nonparametric estimate" if positions is not None else "the data"
-        out.append(_img(pic, f"Q–Q plot of {label}", _CAPTIONS["qq"].format(against=against)))
-        pic = plots.plot_pp(x, s, weights=w, positions=positions, label=label)
-        out.append(_img(pic, f"P–P plot of {label}", _CAPTIONS["pp"]))
-    tail = report.tail
-    if tail is not None and len(tail.mean_excess_thresholds):
-        pic = plots.plot_mean_excess(
-            tail.mean_excess_thresholds, tail.mean_excess, chosen=tail.chosen_threshold, units=units
-        )
-        out.append(_img(pic, "Mean excess over a threshold", _CAPTIONS["mean_excess"]))
-    if tail is not None and len(tail.scan_thresholds):
-        pic = plots.plot_shape_scan(
-            tail.scan_thresholds,
-            tail.scan_shapes,
-            low=tail.scan_low,
-            high=tail.scan_high,
-            chosen=tail.chosen_threshold,
-            units=units,
-        )
-        out.append(_img(pic, "Tail shape across thresholds", _CAPTIONS["shape"]))
-    if report.joint is not None:
-        pic = plots.plot_joint(report.joint)
-        out.append(_img(pic, "Joint data and joint draws", _CAPTIONS["joint"]))
-    if report.elicited is not None:
-        target, e = sel or report.candidates[0], report.elicited
-        pic = plots.plot_elicited(
-            target.sampler, e.probabilities, e.values, units=units, label=target.label
-        )
-        src = f" Source: {e.source}." if e.source else ""
-        out.append(_img(pic, "Elicited points on the curve", _CAPTIONS["elicited"] + src))
-    if report.drift is not None and sel is not None:
-        d = report.drift
-        pic = plots.plot_drift(
-            d.previous, sel.sampler, old_label=d.previous_label, new_label=sel.label, units=units
-        )
-        out.append(_img(pic, "Previous and current selection", _CAPTIONS["drift"]))
-    return out
-
-
-def _pictures_section(report: CheckReportInput) -> str:
-    notes = []
-    data = report.data
-    if data is not None and data.is_incomplete and report.reference is None:
-        notes.append(
-            '<p class="note">The data are incomplete (censored, interval-valued or truncated) '
-            "and no nonparametric estimate was given, so no empirical CDF, Q–Q or P–P picture is "
-            "drawn: plotting incomplete rows as observations would mislead.</p>"
-        )
-    if report.selected_candidate is None:
-        notes.append('<p class="note">No sampler is selected: no Q–Q or P–P picture.</p>')
-    return (
-        '<section id="pictures"><h2>Pictures</h2>'
-        + "".join(notes)
-        + "".join(_pictures(report))
         + "</section>"
     )
 
@@ -423,8 +346,12 @@ def _details_section(report: CheckReportInput) -> str:
         head = ["candidate", "statistic", "value", "p-value", "replicates", "failed refits"]
         out.append(_table(head, rows))
         out.append(
-            '<p class="note">p-values from a parametric bootstrap that refits each replicate; '
-            "a failed refit counts as exceeding the statistic.</p>"
+            '<p class="note">p-values from a parametric bootstrap that refits each replicate: '
+            "p = (1 + replicates whose statistic is at least the data's) / (1 + successful "
+            "refits). Failed refits are left out (they are counted in the last column); with "
+            "more than 10% failed the p-values are unreliable. For incomplete data the "
+            "statistic is the largest distance to the matching nonparametric estimate and each "
+            "replicate redoes the censoring and truncation.</p>"
         )
     else:
         out.append('<p class="note">No goodness-of-fit statistics were given.</p>')
@@ -496,9 +423,8 @@ def render_report_html(report: CheckReportInput) -> str:
         An HTML5 document with inline CSS and base64 PNG images; no JavaScript, no network.
     """
     numbers = derive_numbers(report)
-    curves = [(c.label, c.sampler) for c in report.candidates]
     spread_pic = plots.plot_quantile_spread(
-        curves,
+        comparison_curves(report),
         probabilities=report.probabilities,
         data_quantiles=numbers.data_row.quantiles if numbers.data_row is not None else None,
         units=report.units,
@@ -526,7 +452,7 @@ def render_report_html(report: CheckReportInput) -> str:
         _draw_section(report, numbers),
         _warnings_section(numbers),
         _spread_section(report, numbers, spread_pic),
-        _pictures_section(report),
+        pictures_section(report),
         _details_section(report),
         "</main></body></html>",
         "",

@@ -3,13 +3,19 @@
 :func:`report_input` gathers, for :func:`~samplewright.check.report_html.render_report_html`,
 what the artifacts and the check recorded: the candidates with their goodness-of-fit records,
 the selection and its reason, every warning, the tail diagnostics of a spliced candidate (mean
-excess and the shape across thresholds, the chosen threshold), the Kaplan–Meier estimate with
-its band for censored data, elicited points, and the previous selection with the distance
-already measured (:mod:`samplewright.check.drift`). It reads no file.
+excess and the shape across thresholds, the chosen threshold), the matching nonparametric
+estimate (Kaplan–Meier with its band, or Turnbull's) for incomplete data, elicited points, and
+the previous selection with the distance already measured (:mod:`samplewright.check.drift`). It
+reads no file.
 
 The Kaplan–Meier band is the pointwise 95% band of the log(−log) transform with Greenwood's
 variance (Kalbfleisch & Prentice 2002, §1.4): ``S(t)^exp(±z σ(t))`` with
-``σ² = Σ d / (n (n − d)) / log(S)²`` over event times up to ``t``.
+``σ² = Σ d / (n (n − d)) / log(S)²`` over event times up to ``t``, ``n`` the weight at risk
+(with entry times: the rows entered before ``t`` and not yet ended). For truncated, censored or
+interval rows the matching nonparametric estimate comes from
+:mod:`samplewright.check.incomplete_reference`. Elicited points are a quantiles input's points,
+or a three-point input's lowest and highest value (the curve's 0 and 1) and its most likely
+value (the mode).
 """
 
 from __future__ import annotations
@@ -99,38 +105,38 @@ def tail_diagnostics_of(diagnostics: Mapping[str, Any]) -> TailDiagnostics | Non
 
 
 def kaplan_meier_band(
-    values: Any, censored: Any, weights: Any = None, *, z: float = 1.959963984540054
+    values: Any,
+    censored: Any,
+    weights: Any = None,
+    *,
+    entry: Any = None,
+    z: float = 1.959963984540054,
 ) -> ReferenceEstimate:
     """The Kaplan–Meier estimate of the CDF with its log(−log) Greenwood band (docstring).
 
-    ``z`` is the standard normal quantile of the band (default: 95%).
+    ``entry`` holds entry times (lower truncation points: a row is at risk from just after its
+    entry on); ``z`` is the standard normal quantile of the band (default: 95%).
     """
-    x = np.asarray(values, dtype=np.float64)
-    c = np.asarray(censored, dtype=bool)
-    w = np.ones_like(x) if weights is None else np.asarray(weights, dtype=np.float64)
-    times, inv = np.unique(x, return_inverse=True)
-    total = np.bincount(inv, weights=w, minlength=times.size)
-    events = np.bincount(inv, weights=w * ~c, minlength=times.size)
-    at_risk = np.cumsum(total[::-1])[::-1]
-    keep = events > 0
-    t, d, n = times[keep], events[keep], at_risk[keep]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        surv = np.cumprod(1.0 - d / n)
-        green = np.cumsum(np.where(n > d, d / (n * (n - d)), np.inf))
-        log_s = np.log(surv)
-        sigma = np.sqrt(green) / np.abs(log_s)
-        low_s = surv ** np.exp(z * sigma)  # the lower survival bound
-        high_s = surv ** np.exp(-z * sigma)
-    ok = np.isfinite(sigma) & (surv > 0) & (surv < 1)
-    low_s = np.where(ok, low_s, surv)
-    high_s = np.where(ok, high_s, surv)
-    return ReferenceEstimate(
-        "Kaplan–Meier",
-        t,
-        1.0 - surv,
-        low=np.maximum.accumulate(1.0 - high_s),
-        high=np.maximum.accumulate(1.0 - low_s),
-    )
+    from samplewright.check.incomplete_reference import incomplete_rows, reference_estimate
+
+    rows = incomplete_rows(values, censored=censored, truncation=entry, weights=weights)
+    return reference_estimate(rows, z=z)
+
+
+def _elicited_points(diag: Mapping[str, Any]) -> ElicitedPoints | None:
+    """The points an expert gave, from a sampler's diagnostics (quantiles or three points)."""
+    e = diag.get("elicited")
+    if isinstance(e, Mapping) and e.get("probabilities"):
+        return ElicitedPoints(e["probabilities"], e["values"], "elicited points")
+    t = diag.get("three_points")
+    if isinstance(t, Mapping) and t.get("low") is not None and t.get("high") is not None:
+        return ElicitedPoints(
+            [0.0, 1.0],
+            [float(t["low"]), float(t["high"])],
+            f"three points ({t.get('family', 'pert')}): lowest, most likely and highest value",
+            mode=None if t.get("mode") is None else float(t["mode"]),
+        )
+    return None
 
 
 def report_input(
@@ -141,6 +147,9 @@ def report_input(
     values: Any = None,
     weights: Any = None,
     censored: Any = None,
+    truncation: Any = None,
+    lower: Any = None,
+    upper: Any = None,
     selected: int | None = None,
     reason: str = "",
     units: str = "",
@@ -155,7 +164,11 @@ def report_input(
 
     ``samplers`` and ``labels`` are the candidates in order; ``gof`` one goodness-of-fit record
     per candidate (or None); ``selected`` the index of the selected one. ``previous`` with
-    ``drift`` (its comparison with the selected candidate) adds the drift block.
+    ``drift`` (its comparison with the selected candidate) adds the drift block. Incomplete
+    data (``censored`` flags, lower ``truncation`` points, interval rows ``lower``/``upper``
+    with ``values`` a point per row for the histogram) get the matching nonparametric estimate
+    (:func:`~samplewright.check.incomplete_reference.reference_estimate`), computed from the
+    rows whether or not a candidate is one.
     """
     records = list(gof) + [None] * (len(samplers) - len(gof))
     candidates = []
@@ -171,17 +184,28 @@ def report_input(
     reference = None
     if values is not None:
         cens = None if censored is None or not np.any(censored) else censored
-        data = ObservedData(values, weights=weights, censored=cens)
-        if cens is not None:
-            reference = kaplan_meier_band(values, cens, weights)
+        data = ObservedData(
+            values, weights=weights, censored=cens, lower=lower, upper=upper, truncation=truncation
+        )
+        if data.is_incomplete:
+            from samplewright.check.incomplete_reference import incomplete_rows, reference_estimate
+
+            if lower is not None and upper is not None:
+                rows = incomplete_rows(
+                    lower=lower, upper=upper, truncation=truncation, weights=weights
+                )
+            else:
+                rows = incomplete_rows(
+                    values, censored=cens, truncation=truncation, weights=weights
+                )
+            reference = reference_estimate(rows)
     tail = None
     elicited = None
     for s in [chosen] if chosen is not None else samplers:
-        diag = (getattr(s, "metadata", {}) or {}).get("diagnostics") or {}
+        meta = getattr(s, "metadata", {}) or {}
+        diag = meta.get("diagnostics") or getattr(s, "diagnostics", {}) or {}
         tail = tail or tail_diagnostics_of(diag)
-        e = diag.get("elicited")
-        if elicited is None and isinstance(e, Mapping) and e.get("probabilities"):
-            elicited = ElicitedPoints(e["probabilities"], e["values"], "elicited points")
+        elicited = elicited or _elicited_points(diag)
     drift_input = None
     if previous is not None and drift is not None:
         drift_input = DriftInput(
@@ -218,6 +242,13 @@ def _ci(ci: Any) -> dict[str, Any] | None:
     return {"low": _num(ci.low), "high": _num(ci.high), "level": ci.level}
 
 
+def _spread_doc(spread: Mapping[float | str, tuple[float, float]]) -> dict[str, Any]:
+    return {
+        (f"{k:g}" if isinstance(k, float) else str(k)): {"smallest": _num(lo), "largest": _num(hi)}
+        for k, (lo, hi) in spread.items()
+    }
+
+
 def _row(r: CandidateNumbersResult) -> dict[str, Any]:
     return {
         "label": r.label,
@@ -234,10 +265,18 @@ def report_numbers_document(report: CheckReportInput) -> dict[str, Any]:
     data's row, the spread across candidates, what moved since the previous selection, and
     every warning (``found_by_report`` for those the report added)."""
     n = derive_numbers(report)
-    spread = {
-        (f"{k:g}" if isinstance(k, float) else str(k)): {"smallest": _num(lo), "largest": _num(hi)}
-        for k, (lo, hi) in n.spread.items()
-    }
+    spread = _spread_doc(n.spread)
+    given_above = None
+    if n.given_above is not None:
+        given_above = {
+            "threshold": n.given_above,
+            "meaning": "every row is truncated: the data row and these rows describe X given "
+            "X > threshold, the smallest truncation point; 'candidates' above are ground-up",
+            "candidates": [
+                {**_row(r), "share_below": _num(n.share_below[r.label])} for r in n.conditional
+            ],
+            "spread": _spread_doc(n.conditional_spread),
+        }
     drift = None
     if n.drift is not None:
         d = n.drift
@@ -261,6 +300,7 @@ def report_numbers_document(report: CheckReportInput) -> dict[str, Any]:
         "candidates": [_row(r) for r in n.candidates],
         "data": None if n.data_row is None else _row(n.data_row),
         "spread": spread,
+        "given_above": given_above,
         "drift": drift,
         "warnings": [
             {"kind": w.kind, "message": w.message, "found_by_report": found}

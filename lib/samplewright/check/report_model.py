@@ -102,6 +102,7 @@ class Candidate:
 
     ``quantiles`` maps a probability to a value and ``quantile_intervals`` to an interval; the
     tail mean is at the report's ``tail_level``. Missing numbers are computed from ``sampler``.
+    ``interval_source`` says how the intervals were made (e.g. "parametric bootstrap, 99").
     """
 
     label: str
@@ -112,6 +113,7 @@ class Candidate:
     tail_mean_interval: ConfidenceInterval | None = None
     fit_checks: tuple[FitCheck, ...] = ()
     note: str = ""
+    interval_source: str = ""
 
 
 @dataclass(frozen=True)
@@ -157,6 +159,15 @@ class ObservedData:
         return self.n_incomplete > 0 or self.truncation is not None
 
     @property
+    def conditioned_on(self) -> float | None:
+        """``t0``, the smallest lower truncation point, when every row is truncated (then the
+        data describe ``X`` given ``X > t0``); else None."""
+        if self.truncation is None:
+            return None
+        t = np.asarray(self.truncation, dtype=np.float64)
+        return float(t.min()) if t.size and bool(np.all(t > -np.inf)) else None
+
+    @property
     def n_incomplete(self) -> int:
         """Rows not observed exactly (right-censored or with lower != upper)."""
         n = int(np.sum(self.censored)) if self.censored is not None else 0
@@ -183,6 +194,9 @@ class ReferenceEstimate:
     """A nonparametric CDF estimate (e.g. Kaplan–Meier, Turnbull) with an optional band.
 
     ``kind="step"``: ``cdf[i]`` holds on ``[x[i], x[i+1])``; ``kind="knots"``: linear between.
+    ``sampler`` (optional) is the matching sampler, whose quantile definition the data row then
+    uses; ``reached`` the highest level the estimate determines (below 1 when the largest rows
+    are censored; default ``cdf[-1]``): quantiles above it are not shown.
     """
 
     label: str
@@ -191,6 +205,8 @@ class ReferenceEstimate:
     low: Any = None
     high: Any = None
     kind: Literal["step", "knots"] = "step"
+    sampler: SamplerLike | None = None
+    reached: float | None = None
 
     def __post_init__(self) -> None:
         x = np.asarray(self.x, dtype=np.float64).ravel()
@@ -217,11 +233,14 @@ class JointInput:
 
 @dataclass(frozen=True)
 class ElicitedPoints:
-    """Points an expert gave: values not exceeded with the given probabilities."""
+    """Points an expert gave: values not exceeded with the given probabilities, and for a
+    three-point estimate its most likely value ``mode`` (the lowest and highest value are the
+    points at probability 0 and 1)."""
 
     probabilities: Any
     values: Any
     source: str = ""
+    mode: float | None = None
 
 
 @dataclass(frozen=True)

@@ -3,8 +3,16 @@
 Definitions used throughout:
 
 - quantile: the generalised inverse ``Q(u) = inf{x : F(x) >= u}``, for the data (``numpy.quantile``
-  with ``method="inverted_cdf"``, Hyndman & Fan 1996 definition 1) and for every sampler alike, so
-  an empirical sampler's row equals the data's row;
+  with ``method="inverted_cdf"``, Hyndman & Fan 1996 definition 1; for incomplete data the
+  nonparametric estimate's own sampler) and for every sampler alike, so an empirical sampler's row
+  equals the data's row and a Kaplan–Meier candidate's row the Kaplan–Meier estimate's; a level
+  within :data:`~samplewright.distributions.steps.LEVEL_TOLERANCE` above a step selects that step,
+  as the samplers do;
+- given above ``t0``: when every row of the data is truncated, ``t0`` the smallest truncation
+  point, the data show ``X`` given ``X > t0`` only; each candidate is then compared with them
+  through its conditional distribution
+  (:class:`~samplewright.check.incomplete_reference.ConditionalSampler`), and its ground-up
+  figures (what a simulation draws) are kept apart, with ``F(t0)``, the share the data never saw;
 - tail mean at level ``p``: ``(1 / (1 - p)) ∫_p^1 Q(u) du``, the mean of the worst ``1 - p``
   share (expected shortfall, Acerbi & Tasche 2002); for data it is exact, for a sampler it is a
   midpoint rule on ``u = 1 - (1 - p) r^4`` (infinite when the sampler's mean is);
@@ -16,7 +24,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -36,12 +44,15 @@ __all__ = [
     "derive_numbers",
     "dkw_half_width",
     "effective_n",
+    "failed_refits_message",
     "is_discrete",
     "ks_between",
+    "quantile_integral",
     "rank_correlation",
     "sampler_tail_mean",
     "step_quantile",
     "step_tail_mean",
+    "truncation_warnings",
 ]
 
 _POOR_FIT_P = 0.01
@@ -64,10 +75,19 @@ def effective_n(weights: np.ndarray | None, n: int) -> float:
 
 
 def step_quantile(x: Any, cdf: Any, u: Any) -> np.ndarray:
-    """Generalised inverse of a step CDF (``cdf[i]`` from ``x[i]`` on); NaN where never reached."""
+    """Generalised inverse of a step CDF (``cdf[i]`` from ``x[i]`` on); NaN where never reached.
+
+    A level within ``LEVEL_TOLERANCE`` above a step selects it, as the step samplers do
+    (:mod:`samplewright.distributions.steps`).
+
+    >>> step_quantile([1.0, 2.0, 3.0], np.cumsum([0.1] * 3) / 0.3, [0.5, 2 / 3, 1.0]).tolist()
+    [2.0, 2.0, 3.0]
+    """
+    from samplewright.distributions.steps import LEVEL_TOLERANCE
+
     x, f = np.asarray(x, dtype=np.float64), np.asarray(cdf, dtype=np.float64)
     u = np.asarray(u, dtype=np.float64)
-    idx = np.searchsorted(f, u, side="left")
+    idx = np.searchsorted(f, u - LEVEL_TOLERANCE, side="left")
     return np.where(idx < x.size, x[np.minimum(idx, x.size - 1)], np.nan)
 
 
@@ -95,9 +115,15 @@ def sampler_tail_mean(sampler: SamplerLike, level: float, *, n_cells: int = 1 <<
     """
     if not np.isfinite(sampler.mean):
         return math.inf
+    return quantile_integral(sampler.quantile, level, n_cells=n_cells)
+
+
+def quantile_integral(quantile: Any, level: float, *, n_cells: int = 1 << 14) -> float:
+    """``(1/(1-p)) ∫_p^1 g(u) du`` of a function ``g`` of the level (e.g. a quantile function),
+    by the midpoint rule on ``u = 1 - (1 - p) r^4`` with ``u`` held below 1."""
     r = (np.arange(n_cells) + 0.5) / n_cells
     u = np.minimum(1.0 - (1.0 - level) * r**4, np.nextafter(1.0, 0.0))
-    q = np.asarray(sampler.quantile(u), dtype=np.float64)
+    q = np.asarray(quantile(u), dtype=np.float64)
     return float(np.mean(q * 4.0 * r**3))
 
 
@@ -168,13 +194,23 @@ class DriftNumbersResult:
 
 @dataclass(frozen=True)
 class ReportNumbersResult:
-    """All numbers a report shows, derived once."""
+    """All numbers a report shows, derived once.
+
+    ``candidates`` and ``spread`` are the ground-up figures (what a simulation draws).
+    ``given_above`` is ``t0`` when every row of the data is truncated; then ``conditional`` holds
+    each candidate's figures given ``X > t0`` (what the data row is compared with),
+    ``conditional_spread`` their spread, and ``share_below`` each candidate's ``F(t0)``.
+    """
 
     candidates: tuple[CandidateNumbersResult, ...]
     data_row: CandidateNumbersResult | None
     spread: dict[float | str, tuple[float, float]]  # probability or "tail_mean" -> (min, max)
     drift: DriftNumbersResult | None
     warnings: tuple[tuple[ReportWarning, bool], ...]  # (warning, found by the report)
+    given_above: float | None = None
+    conditional: tuple[CandidateNumbersResult, ...] = ()
+    conditional_spread: dict[float | str, tuple[float, float]] = field(default_factory=dict)
+    share_below: dict[str, float] = field(default_factory=dict)
 
 
 def _candidate_numbers(
@@ -197,13 +233,37 @@ def _candidate_numbers(
     )
 
 
+def _conditional_numbers(
+    c: Candidate, t0: float, probs: Sequence[float], level: float
+) -> CandidateNumbersResult:
+    from samplewright.check.incomplete_reference import conditioned
+
+    s = conditioned(c.sampler, t0)
+    q = np.asarray(s.quantile(np.asarray(probs)), dtype=np.float64)
+    return CandidateNumbersResult(
+        label=c.label,
+        quantiles={float(p): float(v) for p, v in zip(probs, q, strict=True)},
+        tail_mean=sampler_tail_mean(s, level),
+        quantile_intervals={},
+        tail_mean_interval=None,
+        computed=True,
+    )
+
+
 def _data_numbers(report: CheckReportInput) -> CandidateNumbersResult | None:
+    from samplewright.check.incomplete_reference import reference_quantiles
+
     probs, level = np.asarray(report.probabilities), report.tail_level
     data, ref = report.data, report.reference
-    if ref is not None and ref.kind == "step":
-        q = step_quantile(ref.x, ref.cdf, probs)
-        mass = np.diff(np.concatenate([[0.0], ref.cdf]))
-        tail = step_tail_mean(ref.x, level, mass) if ref.cdf[-1] >= 1.0 - 1e-12 else math.nan
+    if ref is not None and (ref.kind == "step" or ref.sampler is not None):
+        q = reference_quantiles(ref, probs)
+        reached = ref.reached if ref.reached is not None else float(ref.cdf[-1])
+        if reached < 1.0 - 1e-12:
+            tail = math.nan  # the data do not say where the mass beyond the largest value lies
+        elif ref.sampler is not None:
+            tail = sampler_tail_mean(ref.sampler, level)
+        else:
+            tail = step_tail_mean(ref.x, level, np.diff(np.concatenate([[0.0], ref.cdf])))
         label = f"{ref.label} (nonparametric)"
     elif data is not None and not data.is_incomplete:
         q = np.quantile(data.values, probs, method="inverted_cdf", weights=data.weights)
@@ -243,11 +303,60 @@ def _drift_numbers(report: CheckReportInput) -> DriftNumbersResult | None:
     )
 
 
+def failed_refits_message(label: str, n_failed: int, n_replicates: int | None) -> str:
+    """What failed bootstrap refits mean for a candidate's p-values (as the tests treat them:
+    left out, :mod:`samplewright.check.gof`)."""
+    from samplewright.check.gof import MAX_FAILED_SHARE
+
+    if not n_replicates:
+        return f"{label}: {n_failed} bootstrap refits failed and were left out of its p-values"
+    text = (
+        f"{label}: {n_failed} of {n_replicates} bootstrap refits failed; they are left out of its "
+        f"p-values (computed over the {n_replicates - n_failed} that succeeded), which assumes "
+        "the failures are unrelated to how well the model fits"
+    )
+    if n_failed > MAX_FAILED_SHARE * n_replicates:
+        text += f"; more than {MAX_FAILED_SHARE:.0%} failed, so those p-values are unreliable"
+    return text
+
+
+def truncation_warnings(
+    labels: Sequence[str], samplers: Sequence[SamplerLike], t0: float | None, units: str = ""
+) -> list[ReportWarning]:
+    """Warnings about what lies below ``t0``, the smallest truncation point: the share of each
+    candidate there (mass the data never saw), or that a candidate puts nothing there."""
+    if t0 is None:
+        return []
+    unit = f" {units}" if units else ""
+    out = []
+    for label, s in zip(labels, samplers, strict=True):
+        share = float(np.asarray(s.cdf(t0)))
+        if share > 0.0:
+            out.append(
+                ReportWarning(
+                    "support_beyond_data",
+                    f"{label} puts {share:.1%} of its draws at or below {t0:.6g}{unit}, the "
+                    "smallest truncation point: the data never saw that range (it is the "
+                    "family's extrapolation); below it only the ground-up figures apply",
+                )
+            )
+        else:
+            out.append(
+                ReportWarning(
+                    "other",
+                    f"{label} describes only values above {t0:.6g}{unit}, the smallest "
+                    "truncation point: a simulation drawing from it never draws below it",
+                )
+            )
+    return out
+
+
 def _derived_warnings(
     report: CheckReportInput, drift: DriftNumbersResult | None
 ) -> list[ReportWarning]:
     """Warnings the report finds itself, for kinds the input did not already warn about."""
     given = {w.kind for w in report.warnings}
+    said = {w.message for w in report.warnings}
     found: list[ReportWarning] = []
     chosen = report.selected_candidate
     if chosen is not None and "poor_fit" not in given:
@@ -255,7 +364,11 @@ def _derived_warnings(
         if bad:
             tests = ", ".join(f"{f.statistic} (p = {f.p_value:.3g})" for f in bad)
             found.append(
-                ReportWarning("poor_fit", f"the selected sampler {chosen.label} fails {tests}")
+                ReportWarning(
+                    "poor_fit",
+                    f"the selected sampler {chosen.label} fails {tests}: a bootstrap p-value at "
+                    f"or below {_POOR_FIT_P:g}",
+                )
             )
     if "failed_refits" not in given:
         for c in report.candidates:
@@ -264,9 +377,7 @@ def _derived_warnings(
                 f = max(failed, key=lambda f: f.n_failed)
                 found.append(
                     ReportWarning(
-                        "failed_refits",
-                        f"{c.label}: {f.n_failed} of {f.n_replicates} bootstrap refits failed "
-                        "(counted as exceedances, so its p-values are conservative)",
+                        "failed_refits", failed_refits_message(c.label, f.n_failed, f.n_replicates)
                     )
                 )
     data = report.data
@@ -279,6 +390,12 @@ def _derived_warnings(
                 "exactly (censored or interval-valued)",
             )
         )
+    t0 = data.conditioned_on if data is not None else None
+    labels = [c.label for c in report.candidates]
+    samplers = [c.sampler for c in report.candidates]
+    found += [
+        w for w in truncation_warnings(labels, samplers, t0, report.units) if w.message not in said
+    ]
     if drift is not None and drift.flagged and "drift" not in given:
         found.append(
             ReportWarning(
@@ -290,24 +407,39 @@ def _derived_warnings(
     return found
 
 
-def derive_numbers(report: CheckReportInput) -> ReportNumbersResult:
-    """Compute every number the report shows that the input does not carry."""
-    rows = tuple(
-        _candidate_numbers(c, report.probabilities, report.tail_level) for c in report.candidates
-    )
+def _spread(
+    rows: Sequence[CandidateNumbersResult], probs: Sequence[float]
+) -> dict[float | str, tuple[float, float]]:
     spread: dict[float | str, tuple[float, float]] = {}
-    for p in report.probabilities:
+    for p in probs:
         vals = [r.quantiles[p] for r in rows]
         spread[p] = (min(vals), max(vals))
     tails = [r.tail_mean for r in rows]
     spread["tail_mean"] = (min(tails), max(tails))
+    return spread
+
+
+def derive_numbers(report: CheckReportInput) -> ReportNumbersResult:
+    """Compute every number the report shows that the input does not carry."""
+    probs, level = report.probabilities, report.tail_level
+    rows = tuple(_candidate_numbers(c, probs, level) for c in report.candidates)
+    t0 = report.data.conditioned_on if report.data is not None else None
+    conditional: tuple[CandidateNumbersResult, ...] = ()
+    share: dict[str, float] = {}
+    if t0 is not None:
+        conditional = tuple(_conditional_numbers(c, t0, probs, level) for c in report.candidates)
+        share = {c.label: float(np.asarray(c.sampler.cdf(t0))) for c in report.candidates}
     drift = _drift_numbers(report)
     warnings = [(w, False) for w in report.warnings]
     warnings += [(w, True) for w in _derived_warnings(report, drift)]
     return ReportNumbersResult(
         candidates=rows,
         data_row=_data_numbers(report),
-        spread=spread,
+        spread=_spread(rows, probs),
         drift=drift,
         warnings=tuple(warnings),
+        given_above=t0,
+        conditional=conditional,
+        conditional_spread=_spread(conditional, probs) if conditional else {},
+        share_below=share,
     )

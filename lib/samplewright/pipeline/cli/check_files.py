@@ -1,28 +1,25 @@
-"""The file work of ``samplewright check`` and ``samplewright report``.
+"""The file work of ``samplewright check`` (and, re-exported, of ``samplewright report``).
 
-:func:`write_check` reads the data (a snapshot or a file column) and the candidate artifacts,
-refuses candidates fitted to other data (their recorded fingerprint is not the data's), says
-which candidate the workflow selected (``selected``: the selected artifact) and why, runs a
-parametric-bootstrap goodness-of-fit test for plain parametric candidates that carry none (auto
-records its own), gathers every warning, finds the previous selection of the dataset in the
-store and measures what moved (:mod:`samplewright.check.drift`), and writes the summary as JSON
-with Markdown beside it, and optionally the report page.
-
-:func:`write_report` writes the report page (HTML, its numbers as JSON beside it). Given a check
-summary it takes the goodness-of-fit records, warnings and previous selection from it (the
-workflow's report rule); otherwise it gathers them itself, without new tests. Data are
-optional: a column snapshot or data file, a table snapshot of incomplete rows (interval rows,
-truncation), or none at all (a drawn CDF, elicited quantiles). It adds bootstrap intervals from
-the dataset's intervals document (statistics of the data: shown on an empirical candidate fitted
-to all of them, whose figures are the data's) and from its replicates artifact (percentile 95%
-intervals of the selected candidate's figures over the replicates).
+:func:`write_check` reads the data (a column snapshot, a file column, or a table snapshot of a
+dataset's columns by role: truncation, censoring, interval rows; a column fitted with one
+truncation point takes it from the candidates' provenance) and the candidate artifacts, refuses
+candidates fitted to other data (their recorded fingerprint is not the data's), says which
+candidate the workflow selected (``selected``: the selected artifact) and why, tests each
+plain parametric candidate that carries no test (auto records its own) by a parametric
+bootstrap, which for censored, truncated or interval data redoes the censoring and truncation
+and measures the distance to the matching nonparametric estimate
+(:mod:`samplewright.check.candidate_checks`), computes bootstrap intervals of every candidate's
+key quantiles and tail mean (:mod:`samplewright.check.candidate_intervals`), gathers every
+warning (with truncated data: the share of each candidate below the smallest truncation point),
+finds the previous selection of the dataset in the store and measures what moved
+(:mod:`samplewright.check.drift`), and writes the summary as JSON with Markdown beside it, and
+optionally the report page (:func:`~samplewright.pipeline.cli.report_files.write_report`).
 """
 
 from __future__ import annotations
 
 import json
-import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -65,6 +62,18 @@ class _Inputs:
     labels: list[str]
     index: int | None
     rule: str | None
+    truncation: Any = None  # per row, or one number (a column fitted with --truncation)
+    rows: Any = None  # IncompleteSample of incomplete data (censored, truncated, interval)
+
+    def data_arrays(self) -> dict[str, Any]:
+        """What the report's data block takes: censoring, truncation, interval rows."""
+        rd = self.roles or {}
+        return {
+            "censored": self.censored,
+            "truncation": self.truncation,
+            "lower": rd.get("lower"),
+            "upper": rd.get("upper"),
+        }
 
 
 def _read_any(path: PathLike | None, column: str | None) -> tuple[Any, ...]:
@@ -136,46 +145,50 @@ def _load(
         index = _match_selected(samplers, chosen, selected)
         sel = (chosen.metadata.get("diagnostics") or {}).get("selection") or {}
         rule = sel.get("rule")
-    return _Inputs(values, weights, censored, fp, info, roles, samplers, names, index, rule)
+    inp = _Inputs(values, weights, censored, fp, info, roles, samplers, names, index, rule)
+    if values is not None:
+        inp.truncation = roles.get("truncation") if roles else _column_truncation(inp)
+        inp.rows = _incomplete_rows(inp)
+    return inp
 
 
-def _gof(sampler: Any, values: np.ndarray, weights: Any, n_resamples: int, rng: Any) -> Any:
-    """The summary-form goodness-of-fit record of a plain parametric candidate, or None."""
-    from samplewright.check.gof import goodness_of_fit
-    from samplewright.core.errors import SamplewrightError
-    from samplewright.distributions.families import FAMILIES
-
-    meta = sampler.metadata
-    family = (meta.get("sampler") or {}).get("family")
-    if sampler.kind != "parametric" or sampler.method != family or family not in FAMILIES:
-        return None
-    options = dict((meta.get("provenance") or {}).get("options") or {})
-    try:
-        r = goodness_of_fit(
-            values, family, n_resamples=n_resamples, rng=rng, weights=weights, **options
-        )
-    except (SamplewrightError, ValueError, FloatingPointError):
-        return None
-    mine = sampler.params
-    same = all(
-        math.isclose(float(r.params[k]), float(mine[k]), rel_tol=1e-6, abs_tol=1e-9)
-        for k in mine
-        if k in r.params
-    )
-    if not same:
-        return None  # the refit is another model (options not recorded): no test of this one
-    return {
-        "statistics": {k: float(v) for k, v in r.statistics.items()},
-        "pvalues": {k: (float(v) if np.isfinite(v) else None) for k, v in r.pvalues.items()},
-        "n_resamples": r.n_resamples,
-        "n_failed": r.n_failed,
-        "reliable": bool(r.reliable),
-        "source": "check",
+def _column_truncation(inp: _Inputs) -> float | None:
+    """The truncation point candidates fitted to one column recorded (all the same), or None."""
+    found = {
+        label: (s.metadata.get("provenance") or {}).get("truncation")
+        for label, s in zip(inp.labels, inp.samplers, strict=True)
     }
+    points = {float(t) for t in found.values() if t is not None}
+    if len(points) > 1:
+        raise MethodError(
+            "candidates: fitted with different truncation points "
+            f"({', '.join(f'{k}: {v}' for k, v in found.items() if v is not None)}); "
+            "compare candidates fitted to the same truncated data"
+        )
+    return points.pop() if points else None
 
 
-def _fingerprints(inp: _Inputs, allow_other: bool) -> tuple[dict[str, Any], list[Any]]:
-    """The fingerprints compared, and warnings; refuses candidates fitted to other data."""
+def _incomplete_rows(inp: _Inputs) -> Any:
+    """The data as incomplete rows when they are censored, truncated or interval-valued."""
+    from samplewright.check.incomplete_reference import incomplete_rows
+
+    rd = inp.roles or {}
+    if rd.get("lower") is not None:
+        return incomplete_rows(
+            lower=rd["lower"], upper=rd["upper"], truncation=inp.truncation, weights=inp.weights
+        )
+    if inp.censored is None and inp.truncation is None:
+        return None
+    return incomplete_rows(
+        inp.values, censored=inp.censored, truncation=inp.truncation, weights=inp.weights
+    )
+
+
+def _fingerprints(
+    inp: _Inputs, allow_other: bool, command: str = "check"
+) -> tuple[dict[str, Any], list[Any]]:
+    """The fingerprints compared, and warnings; refuses candidates fitted to other data (the
+    message names the option of ``command`` that compares them anyway)."""
     from samplewright.check.report_model import ReportWarning
 
     data_fp = str(inp.fingerprint)
@@ -199,10 +212,15 @@ def _fingerprints(inp: _Inputs, allow_other: bool) -> tuple[dict[str, Any], list
             )
     if other and not allow_other:
         names = ", ".join(label for label, _ in other)
+        how = (
+            "pass --allow-other-data to compare anyway"
+            if command == "check"
+            else "run 'samplewright check ... --allow-other-data --html PAGE' to compare anyway "
+            "(its --html writes this page)"
+        )
         raise MethodError(
             f"candidates: {names} {'was' if len(other) == 1 else 'were'} fitted to other data "
-            f"(fingerprint {other[0][1][:16]}, the data's is {data_fp[:16]}); refit, or pass "
-            "--allow-other-data to compare anyway"
+            f"(fingerprint {other[0][1][:16]}, the data's is {data_fp[:16]}); refit, or {how}"
         )
     return {"data": data_fp, "candidates": rows}, warned
 
@@ -239,6 +257,7 @@ def _warnings(inp: _Inputs, gofs: Sequence[Any], drift: Any, extra: Sequence[Any
     check's own (other data, poor fit of the selection, a flagged change)."""
     from samplewright.check.recorded import artifact_warnings, data_warnings, merge_warnings
     from samplewright.check.render import auto_fit_check, is_poor_fit
+    from samplewright.check.render_markdown import tested_what
     from samplewright.check.report_model import ReportWarning
 
     i = inp.index
@@ -273,7 +292,7 @@ def _warnings(inp: _Inputs, gofs: Sequence[Any], drift: Any, extra: Sequence[Any
                 ReportWarning(
                     "poor_fit",
                     f"the selected {inp.labels[i]} fails a goodness-of-fit test at p <= 0.01 "
-                    f"({tests}; {gof.get('n_resamples')} bootstrap replicates)",
+                    f"({tests}; tested: {tested_what(gof)})",
                 )
             )
     if drift is not None and drift.flagged:
@@ -300,6 +319,7 @@ def write_check(
     units: str = "",
     drift_threshold: float | None = None,
     gof_resamples: int = 99,
+    interval_resamples: int | None = None,
     seed: int = 0,
     streams: Sequence[str] = ("check",),
     allow_other_data: bool = False,
@@ -308,38 +328,72 @@ def write_check(
     """Write the check summary as JSON to ``out`` and as Markdown beside it (``.md``); with
     ``html``, also the report page and its JSON beside it. Returns the summary.
 
-    ``data_path`` is a column snapshot or a data file with ``column``.
+    ``data_path`` is a column snapshot, a data file with ``column``, or a table snapshot of a
+    dataset's columns by role (truncation, censoring, interval rows). Each candidate gets its
+    goodness-of-fit test (``gof_resamples`` replicates, stream ``(seed, *streams, label)``) and
+    bootstrap intervals of its key quantiles and tail mean (``interval_resamples``, default
+    :data:`~samplewright.check.candidate_intervals.DEFAULT_INTERVAL_RESAMPLES`; stream
+    ``(seed, *streams, label, "intervals")``); see
+    :mod:`samplewright.check.candidate_checks`.
     """
+    from samplewright.check.candidate_checks import fit_check_record, interval_record
+    from samplewright.check.candidate_intervals import DEFAULT_INTERVAL_RESAMPLES
     from samplewright.check.drift import DEFAULT_DRIFT_THRESHOLD
+    from samplewright.check.incomplete_reference import smallest_truncation
     from samplewright.check.render import check_summary, render_check_markdown
+    from samplewright.check.report_numbers import truncation_warnings
     from samplewright.core.randomness import stream_rng
     from samplewright.store.atomic import write_text
 
     inp = _load(data_path, candidates, column, labels, selected)
-    if inp.roles is not None or inp.values is None:
-        raise MethodError(
-            f"{data_path}: a table snapshot of incomplete rows has no single column to check; "
-            "use 'samplewright report' for its page"
-        )
+    if inp.values is None:
+        raise MethodError(f"{data_path}: no data to check the candidates against")
+    n_iv = DEFAULT_INTERVAL_RESAMPLES if interval_resamples is None else int(interval_resamples)
     fp_doc, fp_warnings = _fingerprints(inp, allow_other_data)
     gofs: list[dict[str, Any] | None] = []
+    notes: list[str | None] = []
+    intervals: list[dict[str, Any] | None] = []
+    data: dict[str, Any] = {"values": inp.values, "weights": inp.weights}
+    if inp.rows is not None:
+        data = {}
     for label, s in zip(inp.labels, inp.samplers, strict=True):
-        run = gof_resamples > 0 and inp.censored is None
-        rng = stream_rng(seed, *streams, label)
-        gofs.append(_gof(s, inp.values, inp.weights, gof_resamples, rng) if run else None)
+        checked = fit_check_record(
+            s,
+            rows=inp.rows,
+            n_resamples=gof_resamples,
+            rng=stream_rng(seed, *streams, label),
+            **data,
+        )
+        gofs.append(checked.record)
+        notes.append(checked.note)
+        intervals.append(
+            interval_record(
+                s,
+                rows=inp.rows,
+                n_resamples=n_iv,
+                rng=stream_rng(seed, *streams, label, "intervals"),
+                replicate_params=checked.replicate_params,
+                **data,
+            )
+        )
     threshold = DEFAULT_DRIFT_THRESHOLD if drift_threshold is None else float(drift_threshold)
     previous, drift, _ = _drift(store, dataset, selected, inp, threshold)
+    t0 = None if inp.rows is None else smallest_truncation(inp.rows)
+    extra = fp_warnings + truncation_warnings(inp.labels, inp.samplers, t0, units)
     summary = check_summary(
         inp.values,
         inp.samplers,
         weights=inp.weights,
         censored=inp.censored,
+        rows=inp.rows,
         dataset=dataset,
         labels=inp.labels,
         selected=inp.index,
         rule=inp.rule,
         fit_checks=gofs,
-        warnings=_warnings(inp, gofs, drift, fp_warnings),
+        gof_notes=notes,
+        intervals=intervals,
+        warnings=_warnings(inp, gofs, drift, extra),
         extra={
             "fingerprint": fp_doc,
             "units": units,
@@ -361,212 +415,9 @@ def write_check(
             selected=selected,
             units=units,
             drift_threshold=threshold,
+            allow_other_data=allow_other_data,
         )
     return summary
 
 
-# --- report ------------------------------------------------------------------------------------
-
-
-def _data_intervals(path: PathLike | None) -> dict[str, Any]:
-    """Intervals of the data by statistic text (``quantile:0.99``...), from an intervals JSON."""
-    if path is None:
-        return {}
-    from samplewright.core.canonical import parse_json
-
-    doc = parse_json(Path(path).read_bytes())
-    rows = doc.get("intervals") if isinstance(doc, dict) else None
-    if not isinstance(rows, list):
-        raise MethodError(f"--intervals {path}: not an intervals document (no 'intervals' list)")
-    return {str(r.get("statistic")): r for r in rows if isinstance(r, dict)}
-
-
-def _replicate_intervals(
-    path: PathLike | None, probabilities: Sequence[float], level: float
-) -> tuple[dict[float, Any], Any]:
-    """Percentile 95% intervals of the key quantiles and the tail mean over the replicates."""
-    if path is None:
-        return {}, None
-    from samplewright.check.report_model import ConfidenceInterval
-    from samplewright.check.report_numbers import sampler_tail_mean
-    from samplewright.store.artifacts import load_sampler
-
-    ens: Any = load_sampler(path)
-    if not hasattr(ens, "replicate_quantiles"):
-        raise MethodError(f"--replicates {path}: not a replicates (ensemble) artifact")
-    # shape (n_replicates, len(probabilities))
-    q = np.asarray(ens.replicate_quantiles(np.asarray(probabilities)), dtype=np.float64)
-    cis = {
-        float(p): ConfidenceInterval(*map(float, np.nanquantile(q[:, j], [0.025, 0.975])))
-        for j, p in enumerate(probabilities)
-    }
-    tails = np.asarray(
-        [sampler_tail_mean(ens.replicate(i), level) for i in range(ens.n_replicates)]
-    )
-    tails = tails[np.isfinite(tails)]
-    tail_ci = None
-    if tails.size:
-        tail_ci = ConfidenceInterval(*map(float, np.quantile(tails, [0.025, 0.975])))
-    return cis, tail_ci
-
-
-def _reference(inp: _Inputs) -> Any:
-    """For incomplete rows: a nonparametric candidate's CDF as the report's reference."""
-    from samplewright.check.report_model import ReferenceEstimate
-
-    if inp.roles is None:
-        return None
-    for label, s in zip(inp.labels, inp.samplers, strict=True):
-        if hasattr(s, "time") and hasattr(s, "survival"):
-            return ReferenceEstimate(label, s.time, 1.0 - s.survival, kind="step")
-        if s.method == "turnbull":
-            u = np.linspace(0.0, 1.0, 401)[1:-1]
-            x = np.unique(np.asarray(s.quantile(u), dtype=np.float64))
-            x = x[np.isfinite(x)]
-            return ReferenceEstimate(label, x, np.asarray(s.cdf(x), dtype=np.float64), kind="knots")
-    return None
-
-
-def _with_intervals(report: Any, inp: _Inputs, intervals: Any, replicates: Any) -> Any:
-    from dataclasses import replace
-
-    from samplewright.check.report_model import ConfidenceInterval
-
-    data_cis = _data_intervals(intervals)
-    probs, level = report.probabilities, report.tail_level
-    rep_q, rep_tail = _replicate_intervals(replicates, probs, level)
-    n = None if inp.values is None else int(inp.values.size)
-    new = []
-    for i, (c, s) in enumerate(zip(report.candidates, inp.samplers, strict=True)):
-        q_cis: dict[float, ConfidenceInterval] = {}
-        tail_ci = None
-        if s.method == "empirical" and s.params.get("n") == n and inp.weights is None:
-            for p in probs:
-                r = data_cis.get(f"quantile:{p:g}")
-                if r is not None:
-                    q_cis[p] = ConfidenceInterval(r["low"], r["high"], r["confidence_level"])
-            r = data_cis.get(f"tail_mean:{level:g}")
-            if r is not None:
-                tail_ci = ConfidenceInterval(r["low"], r["high"], r["confidence_level"])
-        if i == inp.index and rep_q:
-            q_cis, tail_ci = rep_q, rep_tail
-        new.append(replace(c, quantile_intervals=q_cis, tail_mean_interval=tail_ci))
-    return replace(report, candidates=tuple(new))
-
-
-def write_report(
-    candidates: Sequence[PathLike],
-    *,
-    out: PathLike,
-    data_path: PathLike | None = None,
-    summary: Mapping[str, Any] | None = None,
-    dataset: str = "",
-    column: str | None = None,
-    labels: Sequence[str] | None = None,
-    selected: PathLike | None = None,
-    store: PathLike | None = None,
-    units: str = "",
-    drift_threshold: float | None = None,
-    intervals: PathLike | None = None,
-    replicates: PathLike | None = None,
-) -> None:
-    """Write the HTML report to ``out`` and its numbers as JSON beside it (``.json``)."""
-    from samplewright.check.drift import DEFAULT_DRIFT_THRESHOLD, compare_samplers
-    from samplewright.check.render import auto_fit_check
-    from samplewright.check.report_html import render_report_html
-    from samplewright.check.report_inputs import report_input, report_numbers_document
-    from samplewright.check.report_model import ReportWarning
-    from samplewright.check.selection import selection_reason
-    from samplewright.core.errors import SamplewrightError
-    from samplewright.store.artifacts import load_sampler
-    from samplewright.store.atomic import write_text
-
-    inp = _load(data_path, candidates, column, labels, selected)
-    threshold = DEFAULT_DRIFT_THRESHOLD if drift_threshold is None else float(drift_threshold)
-    name = dataset or (str(summary.get("dataset")) if summary else "") or Path(out).stem
-    if summary is not None:
-        rows = list(summary.get("candidates") or [])
-        if [r.get("label") for r in rows] != inp.labels:
-            raise MethodError(
-                f"--check: its candidates {[r.get('label') for r in rows]} are not the ones "
-                f"given ({inp.labels})"
-            )
-        if inp.index is None:
-            inp.index = next((i for i, r in enumerate(rows) if r.get("selected")), None)
-        inp.rule = (summary.get("selected") or {}).get("rule") or inp.rule
-        gofs = [r.get("gof") for r in rows]
-        warnings = [ReportWarning(w["kind"], w["message"]) for w in summary.get("warnings") or []]
-        prev = summary.get("previous") or {}
-        previous = drift = None
-        if prev.get("path") and inp.index is not None:
-            try:
-                previous = load_sampler(prev["path"])
-            except (SamplewrightError, OSError):
-                warnings.append(
-                    ReportWarning("other", f"the previous selection {prev['path']} is gone")
-                )
-            else:
-                drift = compare_samplers(previous, inp.samplers[inp.index], threshold=threshold)
-        warnings = [w for w in warnings if w.kind != "drift"]  # the report flags with its own
-    else:
-        gofs = [auto_fit_check(s.metadata.get("diagnostics") or {}) for s in inp.samplers]
-        prev, drift, previous = _drift(store, name, selected, inp, threshold)
-        prev = prev or {}
-        extra = []
-        if inp.fingerprint is not None:
-            extra = _fingerprints(inp, allow_other=False)[1]
-        warnings = [w for w in _warnings(inp, gofs, None, extra) if w.kind != "drift"]
-    rd = inp.roles
-    report = report_input(
-        name,
-        inp.samplers,
-        inp.labels,
-        values=inp.values,
-        weights=inp.weights,
-        censored=inp.censored,
-        selected=inp.index,
-        reason=selection_reason(inp.rule) if inp.rule else "",
-        units=units,
-        warnings=warnings,
-        gof=gofs,
-        previous=previous,
-        previous_label=f"previous selection ({prev.get('method')}, {prev.get('created_at')})",
-        drift=drift,
-        provenance=_provenance(inp, data_path),
-    )
-    if rd is not None:
-        from dataclasses import replace
-
-        from samplewright.check.report_model import ObservedData
-
-        data = ObservedData(
-            inp.values,
-            weights=inp.weights,
-            censored=inp.censored,
-            lower=rd.get("lower"),
-            upper=rd.get("upper"),
-            truncation=rd.get("truncation"),
-        )
-        report = replace(report, data=data, reference=_reference(inp))
-    report = _with_intervals(report, inp, intervals, replicates)
-    out = Path(out)
-    write_text(out, render_report_html(report))
-    doc = report_numbers_document(report)
-    write_text(out.with_suffix(".json"), json.dumps(doc, indent=2, allow_nan=False) + "\n")
-
-
-def _provenance(inp: _Inputs, data_path: PathLike | None) -> dict[str, str]:
-    out: dict[str, str] = {}
-    if data_path is not None:
-        out["data read from"] = str(data_path)
-    if inp.info:
-        out["source file"] = str(inp.info.get("source"))
-        if inp.info.get("column"):
-            out["column"] = str(inp.info.get("column"))
-    if inp.fingerprint:
-        out["data fingerprint"] = inp.fingerprint
-    if inp.index is not None:
-        meta = inp.samplers[inp.index].metadata
-        out["selected artifact key"] = str(meta.get("key"))
-        out["selected content hash"] = str(meta.get("content_hash"))
-    return out
+from samplewright.pipeline.cli.report_files import write_report  # noqa: E402  (re-exported)

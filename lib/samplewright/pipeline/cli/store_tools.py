@@ -8,7 +8,8 @@
 * ``prune``    what the configuration no longer references (a dry run unless ``--apply``; the
                newest ``--keep`` unreferenced versions of each kind are kept);
 * ``clean``    stale temporary files left by interrupted writes;
-* ``export``   a dataset's current draws (or any draws file) as CSV or Parquet.
+* ``export``   a dataset's current draws (or any draws file) as CSV or Parquet (``--json``:
+               what was written, as JSON).
 
 The configuration is the workflow's YAML (``--config``, default ``config.yaml`` when present),
 read with the top-level key ``samplewright`` (or as the section itself); relative data paths in
@@ -93,6 +94,8 @@ def referenced_paths(plan: Any) -> tuple[set[str], set[str]]:
     A produced dataset not fingerprinted yet has unknown references: none of its files is
     pruned.
     """
+    from samplewright.pipeline.report_args import checks, joint_report_path
+
     paths: set[str] = set()
     unknown: set[str] = set()
     for name in plan.datasets:
@@ -101,6 +104,8 @@ def referenced_paths(plan: Any) -> tuple[set[str], set[str]]:
             has_data = plan.has_data(name) if hasattr(plan, "has_data") else not plan.is_knots(name)
             if has_data:
                 found.append(plan.snapshot_path(name))
+            if has_data and checks(plan, name) and plan.check_path(name) not in found:
+                found.append(plan.check_path(name))  # the report's input (table datasets too)
             found += plan.candidate_paths(name)
             for p in list(found):
                 if p == plan.check_path(name) and p.endswith(".json"):
@@ -115,6 +120,9 @@ def referenced_paths(plan: Any) -> tuple[set[str], set[str]]:
         paths.update(plan.joint_targets(name))
         if hasattr(plan, "joint_snapshot_path"):
             paths.add(plan.joint_snapshot_path(name))
+        if getattr(plan, "reports_enabled", False):
+            page = joint_report_path(plan, name)
+            paths.update({page, page[: -len(".html")] + ".json"})
     return paths, unknown
 
 
@@ -375,18 +383,28 @@ def run_export(args: argparse.Namespace) -> int:
     else:
         plain = tab.replace_schema_metadata(None)
         atomic_write(out, lambda tmp: pq.write_table(plain, tmp))
+    if args.json:
+        doc = {
+            "source": str(source),
+            "out": str(out),
+            "format": out.suffix.lower()[1:],
+            "rows": tab.num_rows,
+            "columns": list(tab.column_names),
+            "bytes": out.stat().st_size,
+        }
+        emit(json.dumps(doc, indent=2))
+        return 0
     emit(f"{out}: {tab.num_rows} rows, columns {', '.join(tab.column_names)} (from {source})")
     return 0
 
 
-def _common(p: argparse.ArgumentParser, *, store: bool = True, json_flag: bool = True) -> None:
+def _common(p: argparse.ArgumentParser, *, store: bool = True) -> None:
     p.add_argument(
         "--config", help=f"workflow configuration (YAML; default: ./{_DEFAULT_CONFIG} if present)"
     )
     if store:
         p.add_argument("--store", help="store folder (default: the configuration's 'store')")
-    if json_flag:
-        p.add_argument("--json", action="store_true", help="print JSON instead of a table")
+    p.add_argument("--json", action="store_true", help="print JSON instead of a table")
 
 
 def add_commands(sub: Any) -> None:
@@ -450,5 +468,5 @@ def add_commands(sub: Any) -> None:
     p = ssub.add_parser("export", help="a dataset's current draws (or a draws file) as CSV/Parquet")
     p.add_argument("target", help="a dataset name of the configuration, or a draws .parquet file")
     p.add_argument("--out", required=True, help="output file: .csv or .parquet")
-    _common(p, store=False, json_flag=False)
+    _common(p, store=False)
     p.set_defaults(func=run_export)
