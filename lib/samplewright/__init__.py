@@ -69,6 +69,7 @@ _LAZY = {
     "from_three_points": "fitting.expert",
     "goodness_of_fit": "check.gof",
     "goodness_of_fit_incomplete": "check.gof_incomplete",
+    "IncompleteGofResult": "check.gof_incomplete",
     "known_methods": "fitting.api",
     "load_sampler": "store.artifacts",
     "make_rng": "core.randomness",
@@ -90,7 +91,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from samplewright.check.candidate_spread import CandidateSpreadResult, candidate_spread
     from samplewright.check.compare import rank_candidates
     from samplewright.check.gof import GoodnessOfFitResult, goodness_of_fit
-    from samplewright.check.gof_incomplete import goodness_of_fit_incomplete
+    from samplewright.check.gof_incomplete import IncompleteGofResult, goodness_of_fit_incomplete
     from samplewright.check.mc_error import MonteCarloErrorResult, mc_error
     from samplewright.check.report_html import render_report_html
     from samplewright.check.report_model import CheckReportInput
@@ -160,6 +161,7 @@ __all__ = [
     "EnsembleSampler",
     "FitError",
     "GoodnessOfFitResult",
+    "IncompleteGofResult",
     "InputDataError",
     "IntegrityError",
     "JointSampler",

@@ -454,23 +454,27 @@ def test_a_fit_not_rejected_is_not_said_to_pass(tmp_path: Path, run_cli) -> None
 
 
 def test_report_of_other_data_names_an_option_that_exists(tmp_path: Path, run_cli) -> None:
-    """The report's refusal of another dataset's sampler points to the check's option, and
-    following it writes the page."""
+    """The report's refusal of another dataset's sampler names its own --allow-other-data, and
+    following it writes the page (the check command has the same option)."""
     rng = np.random.default_rng(33)
     a = _csv(tmp_path / "a.csv", rng.gamma(2.0, 3.0, 100))
     b = _csv(tmp_path / "b.csv", rng.gamma(2.0, 3.0, 100))
     fitted_a = _fit_cli(run_cli, a, "gamma", tmp_path / "gamma_a.parquet")
     page = tmp_path / "p.html"
     code, _, err = run_cli("report", fitted_a, "--data", b, "-c", "hours", "--out", page)
-    assert code == 2 and "'samplewright check ... --allow-other-data --html PAGE'" in err
-    code, _, err = run_cli("report", fitted_a, "--allow-other-data", "--out", page)
-    assert code == 2  # argparse: the report command has no such option, as the message implies
+    assert code == 2 and "pass --allow-other-data to compare anyway" in err
+    assert not page.exists()
+    code, _, err = run_cli(
+        "report", fitted_a, "--data", b, "-c", "hours", "--allow-other-data", "--out", page
+    )
+    assert code == 0, err
+    assert page.is_file() and "other data" in page.read_text()
     code, _, err = run_cli(
         "check", b, "-c", "hours", fitted_a, "--allow-other-data", "--gof-resamples", "0",
-        "--out", tmp_path / "c.json", "--html", page,
+        "--out", tmp_path / "c.json", "--html", tmp_path / "q.html",
     )  # fmt: skip
     assert code == 0, err
-    assert page.is_file()
+    assert (tmp_path / "q.html").is_file()
 
 
 def test_every_candidate_gets_bootstrap_intervals_of_its_tail() -> None:

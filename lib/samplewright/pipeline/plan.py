@@ -514,8 +514,10 @@ class Plan(PlanArgs):
 
     def dataset_targets(self, name: str) -> list[str]:
         ds = self.datasets[name]
+        from samplewright.pipeline import report_args
+
         out = [self.selected_path(name)]
-        if self.has_check(name):
+        if report_args.checks(self, name):
             out.append(self.check_path(name))
         if ds["draws"] > 0:
             out.append(self.draws_path(name))
@@ -528,9 +530,13 @@ class Plan(PlanArgs):
         return out
 
     def joint_targets(self, name: str) -> list[str]:
+        from samplewright.pipeline import report_args
+
         out = [self.joint_path(name)]
         if self.joints[name]["draws"] > 0:
             out.append(self.joint_draws_path(name))
+        if self.reports_enabled:
+            out.append(report_args.joint_report_path(self, name))
         return out
 
     # -- for rule definitions ----------------------------------------------------------------

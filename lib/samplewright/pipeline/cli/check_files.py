@@ -212,12 +212,7 @@ def _fingerprints(
             )
     if other and not allow_other:
         names = ", ".join(label for label, _ in other)
-        how = (
-            "pass --allow-other-data to compare anyway"
-            if command == "check"
-            else "run 'samplewright check ... --allow-other-data --html PAGE' to compare anyway "
-            "(its --html writes this page)"
-        )
+        how = "pass --allow-other-data to compare anyway"
         raise MethodError(
             f"candidates: {names} {'was' if len(other) == 1 else 'were'} fitted to other data "
             f"(fingerprint {other[0][1][:16]}, the data's is {data_fp[:16]}); refit, or {how}"

@@ -157,6 +157,10 @@ def run_check(args: argparse.Namespace) -> int:
         raise MethodError(f"--gof-resamples: expected an int >= 0, found {args.gof_resamples}")
     if args.seed < 0:
         raise MethodError(f"--seed: expected a non-negative int, found {args.seed}")
+    if args.interval_resamples < 0:
+        raise MethodError(
+            f"--interval-resamples: expected an int >= 0, found {args.interval_resamples}"
+        )
     inputs = [args.data, *args.candidates, args.selected]
     outputs = {"--out": out, "--out (its .md)": out.with_suffix(".md")}
     if html is not None:
@@ -174,6 +178,7 @@ def run_check(args: argparse.Namespace) -> int:
         units=args.units or "",
         drift_threshold=_threshold(args.drift_threshold),
         gof_resamples=args.gof_resamples,
+        interval_resamples=args.interval_resamples,
         seed=args.seed,
         streams=args.stream or ["check"],
         allow_other_data=args.allow_other_data,
@@ -197,7 +202,8 @@ def run_report(args: argparse.Namespace) -> int:
     out = _html_out("--out", args.out)
     inputs = [args.check, args.data, *args.candidates, args.selected, args.intervals]
     check_outputs(
-        {"--out": out, "--out (its .json)": out.with_suffix(".json")}, [*inputs, args.replicates]
+        {"--out": out, "--out (its .json)": out.with_suffix(".json")},
+        [*inputs, args.replicates, args.draws],
     )
     summary = None
     if args.check is not None:
@@ -218,6 +224,8 @@ def run_report(args: argparse.Namespace) -> int:
         drift_threshold=_threshold(args.drift_threshold),
         intervals=args.intervals,
         replicates=args.replicates,
+        allow_other_data=args.allow_other_data,
+        draws=args.draws,
     )
     print(f"{args.out}: report written for {len(args.candidates)} candidate(s)")
     return 0
@@ -258,6 +266,12 @@ def add_commands(sub: Any) -> None:
         help="bootstrap replicates of the goodness-of-fit test of plain parametric candidates "
         "(default 99; 0: no test)",
     )
+    p.add_argument(
+        "--interval-resamples",
+        type=int,
+        default=99,
+        help="bootstrap replicates of every candidate's tail intervals (default 99; 0: none)",
+    )
     p.add_argument("--seed", type=int, default=0, help="root seed of the tests (default 0)")
     p.add_argument(
         "--stream", action="append", metavar="NAME", help="stream name, repeatable (default: check)"
@@ -287,6 +301,14 @@ def add_commands(sub: Any) -> None:
     p.add_argument("--store", help="store folder to look for the previous selection (no --check)")
     p.add_argument("--intervals", help="bootstrap intervals of the data (.json, from 'interval')")
     p.add_argument("--replicates", help="replicates of the selected method (.parquet)")
+    p.add_argument(
+        "--draws", help="stored draws of a joint input (.parquet), for its page's scatter"
+    )
+    p.add_argument(
+        "--allow-other-data",
+        action="store_true",
+        help="show candidates fitted to other data instead of refusing them (with a warning)",
+    )
     p.add_argument("--out", required=True, help="report page (.html; a .json is written beside)")
     p.set_defaults(func=run_report)
 
