@@ -293,3 +293,25 @@ def test_check_and_report_cover_a_table_dataset(tmp_path: Path, run_cli) -> None
     km = next(r for r in nums["given_above"]["candidates"] if r["label"] == "kaplan_meier")
     assert km["quantiles"]["0.5"] == nums["data"]["quantiles"]["0.5"]
     assert re.search(r"lognormal puts [\d.]+% of its draws at or below 2000 EUR", page.read_text())
+
+
+def test_auto_on_truncated_rows_gets_tail_intervals_without_its_own_options() -> None:
+    """An auto fit on deductible data carries its options (seed, n_resamples) in provenance;
+    the candidate's tail intervals refit its chosen family and take none of them."""
+    import samplewright as sw
+    from samplewright.check.candidate_intervals import candidate_intervals
+    from samplewright.fitting.incomplete import incomplete_from_flags
+
+    rng = np.random.default_rng(12)  # invented ground-up losses above a deductible of 2
+    x = rng.lognormal(1.5, 0.6, 400)
+    x = x[x > 2.0][:150]
+    fitted = sw.fit(x, "auto", truncation=2.0, n_resamples=19, seed=3)
+    rows = incomplete_from_flags(x, np.zeros(x.size, bool), truncation=np.full(x.size, 2.0))
+    result = candidate_intervals(
+        fitted, rows=rows, options={"n_resamples": 19, "seed": 3}, n_resamples=19, rng=4
+    )
+    assert result is not None
+    # source: interval ends bracket the fitted family's own quantile (common practice)
+    q99 = float(fitted.quantile([0.99])[0])
+    assert result.quantiles[0.99].low <= q99 <= result.quantiles[0.99].high
+    assert "truncation" in result.source

@@ -228,6 +228,10 @@ def candidate_intervals(
         return None
     probs, level = [float(p) for p in probabilities], float(tail_level)
     opts = dict(options or {})
+    if getattr(sampler, "method", None) == "auto":
+        # auto's options (candidates, seed, n_resamples) choose a family; the interval refits
+        # the chosen family with its choice held, which takes none of them
+        opts = {}
     gen = make_rng(rng)
     family = _family_of(sampler)
     try:
