@@ -80,6 +80,7 @@ def _time_rows(repeat: int) -> list[dict[str, Any]]:
                 loglik_gap=ours - theirs,
                 baseline_s=r["baseline_s"],
                 candidate_s=r["candidate_s"],
+                cpu_ratio=r["cpu_ratio"],
             )
         )
     return out

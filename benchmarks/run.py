@@ -6,7 +6,9 @@
 Each benchmark module exposes ``rows(quick: bool) -> list[dict]`` (or ``main(quick)``) whose rows
 carry ``name``, ``baseline``, ``ratio`` (ours / baseline, in time unless the row says otherwise) and
 ``target``. Baselines are measured in the same run, interleaved with ours (A B A B), and the
-median ratio is reported: absolute times drift from machine to machine, ratios much less.
+median ratio is reported: absolute times drift from machine to machine, ratios much less. Rows
+timed by :func:`_timing.interleaved_ratio` also carry the median ratio of CPU times (``cpu
+ratio``), which other jobs on the machine hardly move (see there).
 """
 
 from __future__ import annotations
@@ -58,15 +60,20 @@ def main(argv: list[str] | None = None) -> int:
         t0 = time.perf_counter()
         got = _collect(name, args.quick)
         print(f"bench: {name} done in {time.perf_counter() - t0:.1f} s", flush=True)
-        table += [{"benchmark": name, **r} for r in got]
+        table += [{"benchmark": name, **r, "baseline": str(r["baseline"])} for r in got]
     width = max([len(r["name"]) for r in table] + [4])
     bwidth = max([len(r["baseline"]) for r in table] + [8])
     print()
-    print(f"{'what':<{width}} | {'baseline (same run)':<{bwidth}} | {'ratio':>8} | target")
-    print(f"{'-' * width}-|-{'-' * bwidth}-|-{'-' * 8}-|-------")
+    print(
+        f"{'what':<{width}} | {'baseline (same run)':<{bwidth}} | {'ratio':>8} | "
+        f"{'cpu ratio':>9} | target"
+    )
+    print(f"{'-' * width}-|-{'-' * bwidth}-|-{'-' * 8}-|-{'-' * 9}-|-------")
     for r in table:
+        cpu = f"{r['cpu_ratio']:>9.3g}" if "cpu_ratio" in r else f"{'':>9}"
         print(
-            f"{r['name']:<{width}} | {r['baseline']:<{bwidth}} | {r['ratio']:>8.3g} | {r['target']}"
+            f"{r['name']:<{width}} | {r['baseline']:<{bwidth}} | {r['ratio']:>8.3g} | {cpu} | "
+            f"{r['target']}"
         )
     return 0
 

@@ -82,6 +82,7 @@ def _piecewise_rows(n_draws: int, n_knots: int, repeat: int) -> list[dict[str, A
                 target,
                 ours_s=t["candidate_s"],
                 baseline_s=t["baseline_s"],
+                cpu_ratio=t["cpu_ratio"],
             )
         )
     # np.interp on the same uniforms: the same answer by binary search
@@ -103,6 +104,7 @@ def _piecewise_rows(n_draws: int, n_knots: int, repeat: int) -> list[dict[str, A
             "< 1",
             ours_s=t["candidate_s"],
             baseline_s=t["baseline_s"],
+            cpu_ratio=t["cpu_ratio"],
             max_abs_diff=diff,
         )
     )
@@ -144,6 +146,7 @@ def _other_rows(n_draws: int, repeat: int) -> list[dict[str, Any]]:
                 "~1 (parity)",
                 ours_s=t["candidate_s"],
                 baseline_s=t["baseline_s"],
+                cpu_ratio=t["cpu_ratio"],
             )
         )
     return out
@@ -163,7 +166,8 @@ def rows(
     for res in out:
         print(
             f"  {res['name']:<48} ours {res['ours_s'] * 1e3:8.1f} ms  {res['baseline']:<34}"
-            f" {res['baseline_s'] * 1e3:8.1f} ms  ratio {res['ratio']:.3f}",
+            f" {res['baseline_s'] * 1e3:8.1f} ms  ratio {res['ratio']:.3f}"
+            f" (CPU {res['cpu_ratio']:.3f})",
             flush=True,
         )
     return out

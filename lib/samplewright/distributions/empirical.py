@@ -49,15 +49,22 @@ class EmpiricalSampler(Sampler):
     ) -> None:
         sample = check_sample(values, weights, what="empirical")
         x = sample.values
-        # presorted: the caller vouches for the order (a payload whose content hash verified)
-        order = None if presorted else np.argsort(x, kind="stable")
-        self.values = x if order is None else x[order]
         self.weights: np.ndarray | None = None
         self._frequencies: np.ndarray | None = None
-        if sample.weights is None:
-            self._cum = np.arange(1, x.size + 1, dtype=np.float64) / x.size
+        self._cum_levels: np.ndarray | None = None  # unweighted: made when first needed
+        # presorted: the caller vouches for the order (a payload whose content hash verified)
+        if presorted:
+            self.values = x
+            if sample.weights is not None:
+                self._set_weights(sample.weights)
+        elif sample.weights is None:
+            # a stable sort gives what a stable argsort and take give, bit for bit (equal
+            # values, 0.0 and -0.0 included, keep their order), without the index array
+            self.values = np.sort(x, kind="stable")
         else:
-            self._set_weights(sample.weights if order is None else sample.weights[order])
+            order = np.argsort(x, kind="stable")
+            self.values = x[order]
+            self._set_weights(sample.weights[order])
         super().__init__(
             method=method,
             params={"n": int(x.size), "weighted": sample.weights is not None},
@@ -70,8 +77,18 @@ class EmpiricalSampler(Sampler):
         self._frequencies = frequencies
         running = np.cumsum(frequencies)
         total = running[-1]
-        self._cum = running / total
+        self._cum_levels = running / total
         self.weights = frequencies / total
+
+    @property
+    def _cum(self) -> np.ndarray:
+        """The step CDF at each value: the cumulative weights over their total, or ``i / n``
+        without weights (made on first use: drawing needs none of it, and a sampler loaded to
+        draw from holds no array of the column's size beyond its values)."""
+        if self._cum_levels is None:
+            n = self.values.size
+            self._cum_levels = np.arange(1, n + 1, dtype=np.float64) / n
+        return self._cum_levels
 
     def _probs(self) -> np.ndarray:
         return (

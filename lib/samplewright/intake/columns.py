@@ -21,28 +21,26 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
-import pyarrow as pa
 
 from samplewright.core.errors import InputDataError
-from samplewright.intake.cells import (
-    count_noun,
-    first_row,
-    ints_to_float,
-    parse_text,
-    policy_error,
-)
 from samplewright.intake.options import (
     MISSING_TOKENS,
     Policy,
-    ReadOptions,
     check_policy,
     file_kind,
     read_options,
 )
 from samplewright.intake.tables import read_numbers
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+# Start-up of a rule job: pandas (~0.4 s) is imported only by read_raw_columns, and the cell
+# rules of samplewright.intake.cells (which load pyarrow.compute, ~0.05 s) only where an error
+# message needs them or a column holds text.
 
 __all__ = ["MISSING_TOKENS", "ColumnData", "Policy", "read_column", "read_raw_columns"]
 
@@ -68,6 +66,8 @@ class ColumnData:
 
 def read_raw_columns(path: str | Path, columns: list[str]) -> dict[str, pd.Series]:
     """Read the named columns as they are stored (text for CSV/TSV), checking they exist."""
+    import pandas as pd
+
     path = Path(path)
     wanted = list(dict.fromkeys(columns))
     if file_kind(path) == "csv":
@@ -79,24 +79,6 @@ def read_raw_columns(path: str | Path, columns: list[str]) -> dict[str, pd.Serie
 
     table = read_parquet_columns(path, wanted)
     return {c: table.column(c).to_pandas().rename(c) for c in wanted}
-
-
-def _to_float(series: pd.Series, path: Path, column: str) -> np.ndarray:
-    """Numbers as float64 (NaN where missing) from a column of :func:`read_raw_columns`."""
-    where = Path(path).name
-    if series.dtype == object or pd.api.types.is_string_dtype(series.dtype):
-        cells = pa.array([None if v is None else str(v) for v in series], type=pa.string())
-        options = ReadOptions(separator=None, decimal=".", markers=MISSING_TOKENS, encoding=None)
-        return parse_text(cells, where=where, column=column, options=options)
-    if pd.api.types.is_bool_dtype(series.dtype):
-        return series.to_numpy(dtype=np.float64)
-    if pd.api.types.is_integer_dtype(series.dtype) and not series.hasnans:
-        return ints_to_float(series.to_numpy(), where=where, column=column)
-    if not pd.api.types.is_numeric_dtype(series.dtype):
-        raise InputDataError(
-            f"column {column!r} in {where} has type {series.dtype}, expected numbers"
-        )
-    return series.to_numpy(dtype=np.float64, na_value=np.nan)
 
 
 def _all_finite(values: np.ndarray, step: int = 1 << 16) -> bool:
@@ -160,6 +142,8 @@ def read_column(
     where = path.name
 
     if not _all_finite(values):
+        from samplewright.intake.cells import policy_error
+
         nan = np.isnan(values)
         if nan.any():
             if missing == "error":
@@ -181,6 +165,8 @@ def read_column(
         kept = np.ones(w.size, dtype=bool) if keep is None else keep
         bad = ~np.isfinite(w) & kept
         if bad.any():
+            from samplewright.intake.cells import count_noun, first_row
+
             raise InputDataError(
                 f"weight column {weights!r} in {where} has "
                 f"{count_noun(int(bad.sum()), 'missing or infinite weight')} "
@@ -188,6 +174,8 @@ def read_column(
             )
         nonpos = (w <= 0) & kept
         if nonpos.any():
+            from samplewright.intake.cells import count_noun, first_row
+
             r = first_row(nonpos)
             raise InputDataError(
                 f"weight column {weights!r} in {where} has "
@@ -202,6 +190,8 @@ def read_column(
         kept = np.ones(cv.size, dtype=bool) if keep is None else keep
         bad = ~np.isin(cv, (0.0, 1.0)) & kept
         if bad.any():
+            from samplewright.intake.cells import first_row
+
             r = first_row(bad)
             v = float(cv[r - 1])
             shown = "missing" if np.isnan(v) else repr(np.format_float_positional(v, trim="-"))

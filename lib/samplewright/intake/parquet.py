@@ -5,6 +5,9 @@ without nulls comes back as a read-only view of Arrow's memory (no copy); a colu
 row groups is copied group by group into one array, so the peak stays near one column. Integer
 columns must fit float64 exactly; text columns follow the same rule as CSV cells; booleans read
 as 1/0; any other type (timestamps, lists...) is refused.
+
+Numeric values leave Arrow through their buffers (``np.frombuffer``), not through pyarrow's
+``to_numpy``: in pyarrow 26 that imports pandas, which alone costs a rule job ~0.4 s of start-up.
 """
 
 from __future__ import annotations
@@ -14,11 +17,9 @@ from pathlib import Path
 
 import numpy as np
 import pyarrow as pa
-import pyarrow.compute as pc
 import pyarrow.parquet as pq
 
 from samplewright.core.errors import InputDataError
-from samplewright.intake.cells import ints_to_float, parse_text, to_float_array
 from samplewright.intake.files import check_file, check_names
 from samplewright.intake.options import ReadOptions
 
@@ -59,6 +60,60 @@ def _read(pf: pq.ParquetFile, path: Path, columns: list[str], group: int | None 
         ) from None
 
 
+def _slots(arr: pa.Array, dtype: np.dtype) -> np.ndarray:
+    """The value slots of a fixed-width Arrow array as a read-only numpy view (a null slot holds
+    whatever the writer left there)."""
+    n = len(arr)
+    data = arr.buffers()[1]
+    if n == 0 or data is None:
+        out = np.empty(0, dtype=dtype)
+    else:
+        out = np.frombuffer(data, dtype=dtype, count=n, offset=arr.offset * dtype.itemsize)
+    out.flags.writeable = False
+    return out
+
+
+def _nulls(arr: pa.Array) -> np.ndarray | None:
+    """Mask of the null slots of ``arr`` from its validity bitmap (None when it has none)."""
+    if arr.null_count == 0:
+        return None
+    bits = np.unpackbits(np.frombuffer(arr.buffers()[0], dtype=np.uint8), bitorder="little")
+    return bits[arr.offset : arr.offset + len(arr)] == 0
+
+
+def _joined(col: pa.ChunkedArray, dtype: np.dtype, fill: float) -> tuple[np.ndarray, bool]:
+    """The values of a fixed-width column as one numpy array, ``fill`` in null slots, and
+    whether it had nulls. One chunk without nulls comes back as a read-only view of Arrow's
+    memory; otherwise the chunks are copied one by one into one new array."""
+    chunks = col.chunks
+    if len(chunks) == 1 and chunks[0].null_count == 0:
+        return _slots(chunks[0], dtype), False
+    out = np.empty(len(col), dtype=dtype)
+    pos = 0
+    for chunk in chunks:
+        end = pos + len(chunk)
+        out[pos:end] = _slots(chunk, dtype)
+        nulls = _nulls(chunk)
+        if nulls is not None:
+            out[pos:end][nulls] = fill
+        pos = end
+    return out, col.null_count > 0
+
+
+def _floats(col: pa.ChunkedArray) -> np.ndarray:
+    """float64 values of a float64 column, NaN where null."""
+    return _joined(col, np.dtype(np.float64), np.nan)[0]
+
+
+def _int_dtype(t: pa.DataType) -> np.dtype:
+    return np.dtype(f"{'i' if pa.types.is_signed_integer(t) else 'u'}{t.bit_width // 8}")
+
+
+def _null_mask(arr: pa.Array) -> np.ndarray:
+    nulls = _nulls(arr)
+    return np.zeros(len(arr), dtype=bool) if nulls is None else nulls
+
+
 def _is_floatlike(t: pa.DataType) -> bool:
     return pa.types.is_floating(t) or pa.types.is_integer(t) or pa.types.is_boolean(t)
 
@@ -76,17 +131,20 @@ def _numbers(
     if pa.types.is_dictionary(t):
         return _numbers(col.cast(t.value_type), where, column, options, flags, offset)
     if pa.types.is_floating(t):
-        return to_float_array(col if t == pa.float64() else col.cast(pa.float64()))
+        return _floats(col if t == pa.float64() else col.cast(pa.float64()))
     if pa.types.is_boolean(t):
-        return to_float_array(col.cast(pa.float64()))
-    if pa.types.is_integer(t):
-        ints = pc.fill_null(col, 0).to_numpy() if col.null_count else col.to_numpy()
-        out = ints_to_float(np.asarray(ints), where=where, column=column, offset=offset)
-        if col.null_count:
-            out[np.asarray(col.is_null().to_numpy(zero_copy_only=False), dtype=bool)] = np.nan
-        return out
+        return _floats(col.cast(pa.float64()))
     if pa.types.is_null(t):
         return np.full(len(col), np.nan)
+    # the integer and text rules live with pyarrow.compute (~0.05 s to load): imported here
+    from samplewright.intake.cells import ints_to_float, parse_text
+
+    if pa.types.is_integer(t):
+        ints, has_nulls = _joined(col, _int_dtype(t), 0)
+        out = ints_to_float(ints, where=where, column=column, offset=offset)
+        if has_nulls:
+            out[np.concatenate([_null_mask(c) for c in col.chunks])] = np.nan
+        return out
     if pa.types.is_decimal(t):  # through text, so that the rounding is correct
         return parse_text(col.cast(pa.string()), where=where, column=column, options=options)
     if any(

@@ -44,7 +44,7 @@ from samplewright.core.versions import SNAPSHOT_FORMAT_VERSION
 from samplewright.store.atomic import write_text
 from samplewright.store.layout import FINGERPRINT_CACHE_NAME
 
-if TYPE_CHECKING:  # intake pulls in pandas and pyarrow: only needed when a file is read
+if TYPE_CHECKING:  # intake pulls in pyarrow: only needed when a file is read
     from samplewright.intake.columns import ColumnData
 
 __all__ = [
@@ -398,13 +398,13 @@ class FingerprintCache:
 
             read_column(path, column)  # raises the standard "not found" error
 
-        def compute() -> str:  # intake (pyarrow, pandas) is imported only on a memo miss
-            from samplewright.intake.columns import read_column
-
+        def compute() -> str:  # pyarrow is imported only on a memo miss, intake only if needed
             if _streamable(path, opts):
                 fp = _streamed_parquet(path, column)
                 if fp is not None:
                     return fp
+            from samplewright.intake.columns import read_column
+
             return fingerprint_column(read_column(path, column, **opts))
 
         return self._memo(path, self._what(column, opts), compute)
