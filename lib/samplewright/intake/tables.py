@@ -15,7 +15,6 @@ from pathlib import Path
 import numpy as np
 
 from samplewright.core.errors import InputDataError
-from samplewright.intake.cells import policy_error
 from samplewright.intake.options import Policy, ReadOptions, check_policy, file_kind, read_options
 
 __all__ = ["TableResult", "read_numbers", "read_table"]
@@ -117,6 +116,8 @@ def read_table(
     if rows_missing.any():
         if missing == "error":
             j = int(np.flatnonzero(nan.any(axis=0))[0])
+            from samplewright.intake.cells import policy_error  # error path only (pyarrow.compute)
+
             raise policy_error("missing", names[j], path.name, nan[:, j])
         dropped["missing"] = int(rows_missing.sum())
     inf = np.isinf(table)
@@ -124,6 +125,8 @@ def read_table(
     if rows_inf.any():
         if infinite == "error":
             j = int(np.flatnonzero(inf.any(axis=0))[0])
+            from samplewright.intake.cells import policy_error
+
             raise policy_error("infinite", names[j], path.name, inf[:, j])
         dropped["infinite"] = int(rows_inf.sum())
         keep &= ~rows_inf

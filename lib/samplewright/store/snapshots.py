@@ -27,13 +27,19 @@ __all__ = ["SNAPSHOT_KEY", "read_data", "snapshot_info", "write_snapshot"]
 SNAPSHOT_KEY = b"samplewright-snapshot"
 
 
+def _float_array(values: np.ndarray) -> pa.Array:
+    """A float64 Arrow array over ``values``' buffer (``pa.array`` would import pandas)."""
+    v = np.ascontiguousarray(values, dtype=np.float64)
+    return pa.Array.from_buffers(pa.float64(), v.size, [None, pa.py_buffer(v)])
+
+
 def write_snapshot(data: ColumnData, path: str | Path) -> dict[str, Any]:
     """Write cleaned column data to ``path`` atomically; return the info recorded with it."""
-    cols: dict[str, Any] = {"value": pa.array(data.values)}
+    cols: dict[str, Any] = {"value": _float_array(data.values)}
     if data.weights is not None:
-        cols["weight"] = pa.array(data.weights)
+        cols["weight"] = _float_array(data.weights)
     if data.censored is not None:
-        cols["censor"] = pa.array(data.censored.astype(np.float64))
+        cols["censor"] = _float_array(data.censored.astype(np.float64))
     info = {
         "fingerprint": fingerprint_column(data),
         "source": data.source,
