@@ -150,6 +150,6 @@ def copy_example(dest: Path) -> Path:
 def pipeline(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """A copy of the example pipeline after one complete run."""
     work = copy_example(tmp_path_factory.mktemp("pipeline") / "example")
-    run = snakemake(work)
+    run = snakemake(work, timeout=1800)  # a few minutes alone; much longer on a busy machine
     assert run.returncode == 0, run.out[-5000:]
     return work

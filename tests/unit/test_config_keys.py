@@ -242,9 +242,11 @@ def test_paths_targets_and_helpers(data_dir: Path, monkeypatch: pytest.MonkeyPat
     targets = helpers.targets()
     assert len(targets) == len(set(targets))
     assert {helpers.intervals("hours"), helpers.joint_draws("job")} <= set(targets)
-    # no check summary for inputs without data, nor for truncated or interval rows (yet)
+    # a check summary for every dataset read from data (truncated and interval rows too),
+    # none for inputs without data (drawn CDFs, elicited values)
     checks = {n for n in plan.datasets if plan.check_path(n) in targets}
-    assert checks == {"hours"}
+    assert checks == {n for n in plan.datasets if plan.has_data(n)}
+    assert "hours" in checks and len(checks) < len(plan.datasets)
     assert helpers.report("hours") not in targets
     plan.enable_reports()
     assert helpers.report("hours") in helpers.targets()
