@@ -43,7 +43,8 @@ def _example_config() -> dict:
 
 def _below_fit(name: str) -> set[tuple[str, str]]:
     """Jobs of one dataset from its fit down: the fit rule of its kind, selection, draws, check
-    (plain data only), report, and the bootstrap intervals and replicates its config asks for."""
+    (every dataset read from data, truncated and table datasets too), report, and the bootstrap
+    intervals and replicates its config asks for."""
     ds = _example_config()["datasets"][name]
     if "knots" in ds:
         fit = "sw_knots"
@@ -52,8 +53,7 @@ def _below_fit(name: str) -> set[tuple[str, str]]:
     else:
         fit = "sw_fit"
     jobs = {(fit, name), ("sw_select", name), ("sw_draw", name), ("sw_report", name)}
-    incomplete = any(k in ds for k in ("truncation", "lower"))
-    if fit == "sw_fit" and not incomplete:
+    if fit == "sw_fit":
         jobs.add(("sw_check", name))
     for key, rule in (("intervals", "sw_intervals"), ("replicates", "sw_replicates")):
         if key in ds:
@@ -226,7 +226,7 @@ def test_bumping_results_version_reruns_from_fitting_down(pipeline: Path, tmp_pa
     for name in ALL_DATASETS:
         expected |= _below_fit(name)
     if JOINTS:  # joint jobs carry a 'joint' wildcard, not a 'dataset' one
-        expected |= {("sw_fit_joint", ""), ("sw_joint_draw", "")}
+        expected |= {("sw_fit_joint", ""), ("sw_joint_draw", ""), ("sw_joint_report", "")}
     assert run.jobs() == expected, sorted(run.jobs() ^ expected)
     assert not {"sw_snapshot", "sw_table_snapshot"} & {rule for rule, _ in run.jobs()}
     # and without the bumped copy, nothing is planned
