@@ -170,19 +170,12 @@ def run_check(args: argparse.Namespace) -> int:
         args.data,
         args.candidates,
         out=out,
-        dataset=args.dataset,
-        column=args.column,
-        labels=args.label,
-        selected=args.selected,
-        store=args.store,
-        units=args.units or "",
-        drift_threshold=_threshold(args.drift_threshold),
         gof_resamples=args.gof_resamples,
         interval_resamples=args.interval_resamples,
         seed=args.seed,
         streams=args.stream or ["check"],
-        allow_other_data=args.allow_other_data,
         html=html,
+        **_shared_report_options(args),
     )
     chosen = summary.get("selected")
     what = f"; selected {chosen['label']} ({chosen['reason']})" if chosen else ""
@@ -215,17 +208,10 @@ def run_report(args: argparse.Namespace) -> int:
         out=out,
         data_path=args.data,
         summary=summary,
-        dataset=args.dataset,
-        column=args.column,
-        labels=args.label,
-        selected=args.selected,
-        store=args.store,
-        units=args.units or "",
-        drift_threshold=_threshold(args.drift_threshold),
         intervals=args.intervals,
         replicates=args.replicates,
-        allow_other_data=args.allow_other_data,
         draws=args.draws,
+        **_shared_report_options(args),
     )
     print(f"{args.out}: report written for {len(args.candidates)} candidate(s)")
     return 0
@@ -311,6 +297,20 @@ def add_commands(sub: Any) -> None:
     )
     p.add_argument("--out", required=True, help="report page (.html; a .json is written beside)")
     p.set_defaults(func=run_report)
+
+
+def _shared_report_options(args: argparse.Namespace) -> dict[str, Any]:
+    """The keyword arguments ``check`` and ``report`` both pass on (their shared options)."""
+    return {
+        "dataset": args.dataset,
+        "column": args.column,
+        "labels": args.label,
+        "selected": args.selected,
+        "store": args.store,
+        "units": args.units or "",
+        "drift_threshold": _threshold(args.drift_threshold),
+        "allow_other_data": args.allow_other_data,
+    }
 
 
 def _shared_report_args(p: argparse.ArgumentParser) -> None:
