@@ -13,7 +13,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-__all__ = ["CAUTION", "POOR_FIT_P", "render_check_markdown"]
+__all__ = ["CAUTION", "KIND_NAMES", "POOR_FIT_P", "render_check_markdown"]
 
 CAUTION = (
     "A fitted distribution is a model: check it against the data and the engineering or actuarial "
@@ -22,7 +22,8 @@ CAUTION = (
 )
 POOR_FIT_P = 0.01
 _TEST_NAMES = {"ks": "KS", "ad": "AD", "cvm": "CvM"}
-_KIND_NAMES = {
+# warning kinds in words (the Markdown summary and the report pages)
+KIND_NAMES = {
     "small_n": "few observations",
     "ties": "ties or rounding",
     "support_beyond_data": "range beyond the data",
@@ -156,7 +157,7 @@ def _warning_lines(summary: Mapping[str, Any]) -> list[str]:
         return ["## Warnings", "", "None recorded.", ""]
     lines = [f"## Warnings ({len(warned)})", ""]
     for w in warned:
-        lines.append(f"- **{_KIND_NAMES.get(w['kind'], w['kind'])}**: {w['message']}")
+        lines.append(f"- **{KIND_NAMES.get(w['kind'], w['kind'])}**: {w['message']}")
     return [*lines, ""]
 
 

@@ -26,6 +26,7 @@ import numpy as np
 
 from samplewright.check import plots
 from samplewright.check.html_bits import cell, escape, img, number, pct, pvalue, table
+from samplewright.check.render_markdown import KIND_NAMES as _KIND_NAMES
 from samplewright.check.report_model import CheckReportInput
 from samplewright.check.report_numbers import (
     CandidateNumbersResult,
@@ -49,17 +50,6 @@ QUANTILE_DEFINITION = (
     "candidate alike, so an empirical sampler's row equals the data's row."
 )
 SECTION_IDS = ("draw", "warnings", "spread", "pictures", "details")
-_KIND_NAMES = {
-    "small_n": "few observations",
-    "ties": "ties or rounding",
-    "support_beyond_data": "range beyond the data",
-    "draws_beyond_record": "draws beyond the record",
-    "censoring_share": "incomplete rows",
-    "failed_refits": "failed refits",
-    "poor_fit": "poor fit",
-    "drift": "moved since last time",
-    "other": "note",
-}
 _CSS = """
 
 :root{--ink:#1d2430;--muted:#5b6472;--line:#d9dde3;--accent:#245b8f;--warn:#9a5b00;
